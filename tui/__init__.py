@@ -1,0 +1,1 @@
+"""keyproof's terminal front end: the Textual app and the command line."""
