@@ -11,9 +11,11 @@ from .errors import (
     ExportError,
     ImportFileError,
     KeyproofError,
+    OpenWorkError,
     StoreError,
     UsageError,
 )
+from .passdata import PassData
 
 __all__ = [
     "Code",
@@ -24,6 +26,8 @@ __all__ = [
     "ExportError",
     "ImportFileError",
     "KeyproofError",
+    "OpenWorkError",
+    "PassData",
     "StoreError",
     "UsageError",
     "Variable",

@@ -52,3 +52,17 @@ class ExportError(KeyproofError):
 
 class UsageError(KeyproofError):
     """The command line was used in a way it cannot be (bad option or value)."""
+
+
+class OpenWorkError(KeyproofError):
+    """Work is still open (e.g. discrepancies), so the answer is not clean.
+
+    Unlike the other errors this is not bad input: the command line prints it
+    and exits 1. ``counts`` maps what is open (a discrepancy kind) to a count.
+    """
+
+    exit_status = 1
+
+    def __init__(self, message: str, counts: dict[str, int] | None = None):
+        self.counts: dict[str, int] = dict(counts or {})
+        super().__init__(message)

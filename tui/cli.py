@@ -94,7 +94,7 @@ def main(argv: list[str] | None = None) -> int:
         return int(module.run(args) or 0)
     except KeyproofError as exc:
         sys.stderr.write(f"keyproof {name}: {exc}\n")
-        return 2
+        return getattr(exc, "exit_status", 2)
     except KeyboardInterrupt:
         sys.stderr.write(f"keyproof {name}: interrupted.\n")
         return 130
