@@ -19,6 +19,14 @@ from dataclasses import asdict, dataclass, field
 
 TYPES = ("integer", "number", "string", "date")
 
+#: How a scale's score is formed from its (reverse-scored) items.
+SCORE_METHODS = ("mean", "sum")
+
+#: Share of a scale's items that must be answered for a score. 0.8 is common
+#: practice in questionnaire scoring (not a published standard); a codebook
+#: may set its own per scale.
+DEFAULT_MIN_ANSWERED = 0.8
+
 #: The tabular codebook's columns, in the order they are written out.
 COLUMNS = (
     "name",
@@ -37,6 +45,8 @@ COLUMNS = (
     "applies_if",
     "width",
     "format",
+    "score",
+    "min_answered",
 )
 
 
@@ -86,6 +96,13 @@ class Variable:
     """Characters after which keying auto-advances; None means implied by codes/range, if any."""
     format: str = ""
     """Date format in strftime notation (``%d.%m.%Y``); empty means ISO 8601 ``%Y-%m-%d``."""
+    score: str = "mean"
+    """How this item's scale is scored: ``"mean"`` or ``"sum"`` of its items (same for every item of a scale)."""
+    min_answered: float = DEFAULT_MIN_ANSWERED
+    """Share (0-1) of the scale's items that must be answered for a score, else the score is missing.
+
+    With ``"sum"``, a score with some items unanswered is prorated (the mean
+    of the answered items times the number of items)."""
     row: int | None = None
     """Row of the variable in its source file (header is row 1), for messages; None if unknown."""
 
@@ -163,6 +180,21 @@ class Codebook:
             if v.is_id:
                 return v
         raise KeyError("the codebook has no ID variable")
+
+    @property
+    def scales(self) -> dict[str, tuple[Variable, ...]]:
+        """Multi-item scales: scale name -> its items in paper order, scales in order of first item.
+
+        >>> cb = Codebook((Variable("id", is_id=True), Variable("q1", "integer", scale="calm"),
+        ...                Variable("q2", "integer", scale="calm")))
+        >>> [v.name for v in cb.scales["calm"]]
+        ['q1', 'q2']
+        """
+        out: dict[str, list[Variable]] = {}
+        for v in self.variables:
+            if v.scale:
+                out.setdefault(v.scale, []).append(v)
+        return {name: tuple(items) for name, items in out.items()}
 
     @property
     def identifying_names(self) -> list[str]:
