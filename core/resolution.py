@@ -1,0 +1,969 @@
+"""Decisions, set-asides and the verified table: from discrepancies to what stands.
+
+The comparison (``core.compare``) lists what needs a human look; this module
+joins that list with the resolver's decisions (kept by the store, journaled,
+newest one counting), records new decisions, and builds the verified table
+that exports, the report and screening read.
+
+Trade-offs:
+
+- A decision is keyed by (participant, variable, kind) and remembers both
+  pass values it saw. The worklist is recomputed from the passes every time,
+  so a decision can never hide a later change: when either pass value now
+  differs from what the decision saw, the row is ``stale`` and open again.
+  Recomputing costs one comparison; joining the decisions is one vectorised
+  merge, so 50,000 rows stay well under a second.
+- A value that cannot be read as the variable's type (``7.5`` for an
+  integer) never stands: it could not be typed in the verified table. A
+  value of the right type outside the rule (range, codes) stands only when
+  the resolver says the paper really shows it (``keep``); it is then listed
+  in the report.
+- A form keyed in one pass only stays open after ``confirm_one_pass``: the
+  verified file is built from two passes, so the other pass must key it.
+
+Statuses in the worklist's ``_status``:
+
+- ``open``: nothing decided yet, the newest decision was a ``reopen``, or the
+  form was confirmed as keyed in one pass only (``_decision_action`` is then
+  ``one_pass_only``) and waits for the other pass;
+- ``settled``: the newest decision saw the very pass values shown now;
+- ``stale``: a pass value changed after the newest decision; the old decision
+  is shown in the ``_decision_*`` columns.
+
+Decisions file (``keyproof decide --from``): columns ``participant, variable,
+value, reason``; an empty value means blank on paper; a declared missing code
+is written as itself. A value outside the variable's range or codes is
+refused unless its reason starts with ``paper says:`` (any case), meaning the
+paper really shows that value; it is then kept and listed in the report.
+"""
+
+from __future__ import annotations
+
+import json
+from collections.abc import Callable, Iterable
+from pathlib import Path
+
+import pandas as pd
+
+from .codebook import Codebook, Variable
+from .errors import DecisionError, OpenWorkError
+from .values import BLANK, ILLEGIBLE, INVALID_TYPE, KEYED, canonical_series, parse
+from .verified import Verified
+
+OPEN = "open"
+SETTLED = "settled"
+STALE = "stale"
+STATUSES = (OPEN, SETTLED, STALE)
+
+# Store actions (DEVELOPERS.md "Store"); ``reopen`` is an undo: a newer decision.
+VALUE = "value"
+KEEP = "keep"
+PAIR = "pair"
+DROP = "drop"
+ONE_PASS_ONLY = "one_pass_only"
+REOPEN = "reopen"
+
+FORM_KINDS = ("only_in_pass1", "only_in_pass2", "duplicate_id")
+SHIFT_CAUSE = "field_shift"
+ILLEGIBLE_SHOWN = "(illegible)"
+KEEP_PREFIX = "paper says:"
+
+#: Reasons offered when a study has not set its own list.
+DEFAULT_REASONS = (
+    "checked against paper: pass 1 right",
+    "checked against paper: pass 2 right",
+    "checked against paper: both wrong",
+    "paper blank",
+    "paper illegible",
+    "paper value outside the rule, kept",
+    "same form keyed twice",
+    "form number mistyped in one pass",
+)
+
+DECISION_COLUMNS = (
+    "_decision_id",
+    "_decision_action",
+    "_decision_value",
+    "_decision_state",
+    "_decision_reason",
+    "_decided_by",
+    "_decided_at",
+)
+
+_KEY = ["participant", "variable", "kind"]
+
+
+# --------------------------------------------------------------------------- worklist
+
+
+def worklist(study, table: pd.DataFrame | None = None) -> pd.DataFrame:
+    """The comparison of ``study`` joined with the decisions that count.
+
+    ``table`` is a comparison already computed (``core.compare.compare_study``);
+    None computes it. Returns the comparison's columns plus ``_status``
+    (``open``, ``settled``, ``stale``) and the newest decision's
+    ``_decision_id``, ``_decision_action``, ``_decision_value``,
+    ``_decision_state``, ``_decision_reason``, ``_decided_by``,
+    ``_decided_at`` (NA where nothing was decided). Form-level rows come
+    first, then the comparison's own order (by form, in paper order). The
+    index is 0..n-1.
+
+    >>> rows = worklist(study)                        # doctest: +SKIP
+    >>> rows.loc[rows["_status"] != "settled", ["participant", "variable", "kind"]]  # doctest: +SKIP
+    """
+    if table is None:
+        from .compare import compare_study
+
+        table = compare_study(study)
+    return join_decisions(table, study.decisions())
+
+
+def join_decisions(table: pd.DataFrame, decisions: pd.DataFrame) -> pd.DataFrame:
+    """Join a comparison table with a decisions table (the store's columns).
+
+    The pure half of :func:`worklist`, for tests and for callers that hold
+    both tables already.
+
+    >>> t = pd.DataFrame({"participant": ["1"], "variable": ["q1"], "kind": ["mismatch"],
+    ...                   "pass1": ["3"], "pass2": ["4"]})
+    >>> join_decisions(t, pd.DataFrame())["_status"].tolist()
+    ['open']
+    """
+    work = table.reset_index(drop=True).copy()
+    for col in ("participant", "variable", "kind", "pass1", "pass2"):
+        if col not in work:
+            work[col] = ""
+    keys = work[_KEY].astype("string").fillna("")
+    newest = _newest(decisions)
+    if newest.empty:
+        for col in DECISION_COLUMNS:
+            work[col] = pd.NA
+        work["_status"] = OPEN
+        return _order(work)
+    right = newest.rename(
+        columns={
+            "decision_id": "_decision_id",
+            "action": "_decision_action",
+            "value": "_decision_value",
+            "state": "_decision_state",
+            "reason": "_decision_reason",
+            "keyer": "_decided_by",
+            "at": "_decided_at",
+            "pass1": "_seen1",
+            "pass2": "_seen2",
+        }
+    )[[*_KEY, *DECISION_COLUMNS, "_seen1", "_seen2"]]
+    joined = keys.merge(right, on=_KEY, how="left", validate="many_to_one")
+    for col in (*DECISION_COLUMNS, "_seen1", "_seen2"):
+        work[col] = joined[col].to_numpy()
+    decided = work["_decision_id"].notna()
+    now1 = work["pass1"].astype("string").fillna("")
+    now2 = work["pass2"].astype("string").fillna("")
+    seen1 = work["_seen1"].astype("string").fillna("")
+    seen2 = work["_seen2"].astype("string").fillna("")
+    changed = decided & ((now1 != seen1) | (now2 != seen2))
+    waiting = work["_decision_action"].isin([REOPEN, ONE_PASS_ONLY]).fillna(False)
+    status = pd.Series(OPEN, index=work.index, dtype=object)
+    status[decided & ~changed & ~waiting] = SETTLED
+    status[changed] = STALE
+    work["_status"] = status
+    return _order(work.drop(columns=["_seen1", "_seen2"]))
+
+
+def _newest(decisions: pd.DataFrame | None) -> pd.DataFrame:
+    """The newest decision per (participant, variable, kind); oldest first."""
+    if decisions is None or decisions.empty:
+        return pd.DataFrame()
+    d = decisions.copy()
+    for col in ("participant", "variable", "kind", "pass1", "pass2", "value", "state"):
+        d[col] = d[col].astype("string").fillna("")
+    d = d.sort_values("decision_id", kind="stable")
+    return d.drop_duplicates(_KEY, keep="last").reset_index(drop=True)
+
+
+def _order(work: pd.DataFrame) -> pd.DataFrame:
+    """Form-level rows first; otherwise the comparison's own order (stable)."""
+    form_level = work["kind"].isin(FORM_KINDS)
+    rank = (~form_level).astype(int)
+    order = rank.sort_values(kind="stable").index
+    return work.loc[order].reset_index(drop=True)
+
+
+def counts_by_status(rows: pd.DataFrame) -> dict[str, int]:
+    """How many worklist rows are open, settled and stale.
+
+    >>> counts_by_status(pd.DataFrame({"_status": ["open", "open", "settled"]}))
+    {'open': 2, 'settled': 1, 'stale': 0}
+    """
+    found = rows["_status"].value_counts() if len(rows) else pd.Series(dtype=int)
+    return {s: int(found.get(s, 0)) for s in STATUSES}
+
+
+def open_rows(rows: pd.DataFrame) -> pd.DataFrame:
+    """The rows that still need a decision (open or stale), in worklist order."""
+    return rows[rows["_status"] != SETTLED]
+
+
+# --------------------------------------------------------------------------- reasons
+
+
+def reasons(study) -> list[str]:
+    """Reasons offered to the resolver: the study's list, else :data:`DEFAULT_REASONS`.
+
+    >>> reasons(study)[0]                              # doctest: +SKIP
+    'checked against paper: pass 1 right'
+    """
+    raw = study.get_setting("reasons", None)
+    if raw in (None, ""):
+        return list(DEFAULT_REASONS)
+    found = json.loads(raw) if isinstance(raw, str) else raw
+    return [str(r) for r in found]
+
+
+def set_reasons(study, items: Iterable[str], keyer: str) -> list[str]:
+    """Replace the study's list of reasons (journaled); returns the list kept.
+
+    Blank entries and repeats are dropped; an empty list is refused.
+
+    >>> set_reasons(study, ["paper checked", "paper torn"], "LM")   # doctest: +SKIP
+    ['paper checked', 'paper torn']
+    """
+    kept: list[str] = []
+    for item in items:
+        text = " ".join(str(item).split())
+        if text and text not in kept:
+            kept.append(text)
+    if not kept:
+        raise DecisionError("the list of reasons is empty — give at least one reason.")
+    study.set_setting("reasons", json.dumps(kept, ensure_ascii=False), keyer)
+    return kept
+
+
+# --------------------------------------------------------------------------- decisions
+
+
+def decide(study, row, action: str, value: str, state: str, reason: str, keyer: str) -> int:
+    """Record one decision on a worklist ``row``; returns the decision id.
+
+    The low-level entry the named decisions below go through: it checks the
+    reason and the keyer and hands both pass values the row shows to the
+    store, which journals the decision. ``action`` is a store action
+    (``value``, ``keep``, ``pair``, ``drop``, ``one_pass_only``, ``reopen``).
+
+    >>> decide(study, rows.iloc[0], "value", "4", "keyed", "paper checked", "LM")  # doctest: +SKIP
+    12
+    """
+    reason = _need_reason(reason)
+    keyer = _need_keyer(keyer)
+    form1, form2 = _forms_of(row)
+    return study.add_decision(
+        _text(row, "participant"),
+        _text(row, "variable"),
+        action,
+        value,
+        state or None,  # form-level and undo decisions have no state
+        reason,
+        keyer,
+        _text(row, "pass1"),
+        _text(row, "pass2"),
+        _text(row, "kind"),
+        form1=form1,
+        form2=form2,
+    )
+
+
+def take_pass(study, row, pass_no: int, reason: str, keyer: str, keep: bool = False) -> int:
+    """Let pass ``pass_no``'s value of ``row``'s cell stand.
+
+    The exact text and state are read from that pass's form. A value outside
+    the variable's rule is refused unless ``keep`` (the paper really shows it).
+
+    >>> take_pass(study, rows.iloc[0], 1, "checked against paper: pass 1 right", "LM")  # doctest: +SKIP
+    """
+    if pass_no not in (1, 2):
+        raise DecisionError(f"pass {pass_no} does not exist — take pass 1 or pass 2.")
+    text, state = _pass_value(study, row, pass_no)
+    if state == BLANK:
+        return mark_blank(study, row, reason, keyer)
+    if state == ILLEGIBLE:
+        return mark_blank(study, row, reason, keyer, illegible=True)
+    return set_paper_value(study, row, text, reason, keyer, keep=keep)
+
+
+def set_paper_value(study, row, text: str, reason: str, keyer: str, keep: bool = False) -> int:
+    """Let the value on the paper stand, typed by the resolver.
+
+    ``text`` is read by the variable's rules (``core.values``). A text not of
+    the variable's type is always refused; a value outside the range or
+    codes is refused unless ``keep`` (the paper really says it), and is then
+    recorded as kept, for the report. An empty text means blank on paper.
+
+    >>> set_paper_value(study, rows.iloc[0], "42", "checked against paper: both wrong", "LM")  # doctest: +SKIP
+    """
+    var = _variable(study.codebook, row)
+    if not str(text).strip():
+        return mark_blank(study, row, reason, keyer)
+    action = _check_value(var, str(text), keep, where=f'{_text(row, "participant")}: ')
+    return decide(study, row, action, str(text).strip(), KEYED, reason, keyer)
+
+
+def keep_value(study, row, text: str, reason: str, keyer: str) -> int:
+    """Keep a value outside the variable's rule because the paper really says it.
+
+    Listed in the verification report. A value inside the rule is simply
+    recorded as the paper's value.
+
+    >>> keep_value(study, rows.iloc[0], "130", "paper value outside the rule, kept", "LM")  # doctest: +SKIP
+    """
+    return set_paper_value(study, row, text, reason, keyer, keep=True)
+
+
+def mark_blank(study, row, reason: str, keyer: str, illegible: bool = False) -> int:
+    """The paper is blank in this field (or, with ``illegible``, cannot be read).
+
+    Either way the verified table holds no value here (NA).
+
+    >>> mark_blank(study, rows.iloc[0], "paper blank", "LM")   # doctest: +SKIP
+    """
+    _variable(study.codebook, row)
+    return decide(study, row, VALUE, "", ILLEGIBLE if illegible else BLANK, reason, keyer)
+
+
+def set_missing_code(study, row, code: str, reason: str, keyer: str) -> int:
+    """Let one of the variable's declared missing codes stand (e.g. ``-9``).
+
+    >>> set_missing_code(study, rows.iloc[0], "9", "paper blank", "LM")   # doctest: +SKIP
+    """
+    var = _variable(study.codebook, row)
+    wanted = str(code).strip()
+    declared = _canonical_set(var, var.missing_values)
+    canon, _ = canonical_series(var, pd.Series([wanted], dtype=object))
+    if not var.missing or canon.iloc[0] not in declared:
+        offered = ", ".join(var.missing_values) or "none"
+        raise DecisionError(
+            f'"{wanted}" is not a declared missing code of {var.name} '
+            f"(declared: {offered}) — pick one of those or type the paper's value."
+        )
+    return decide(study, row, VALUE, wanted, KEYED, reason, keyer)
+
+
+def settle_shift(study, participant: str, pass_no: int, reason: str, keyer: str,
+                 rows: pd.DataFrame | None = None) -> int:
+    """Settle every field-shift cell of one form at once: pass ``pass_no`` is right.
+
+    One transaction: all cells or none. ``rows`` is the current worklist
+    (computed when None). Returns how many cells were settled.
+
+    >>> settle_shift(study, "17", 1, "checked against paper: pass 1 right", "LM")  # doctest: +SKIP
+    4
+    """
+    rows = worklist(study) if rows is None else rows
+    mask = (
+        (rows["participant"].astype("string") == str(participant))
+        & (rows["cause"].astype("string") == SHIFT_CAUSE)
+        & (rows["_status"] != SETTLED)
+    )
+    shift = rows[mask.fillna(False)]
+    if shift.empty:
+        raise DecisionError(
+            f"participant {participant} has no open field shift — settle its cells one by one."
+        )
+    with study.transaction():
+        for _, row in shift.iterrows():
+            take_pass(study, row, pass_no, reason, keyer, keep=True)
+    return len(shift)
+
+
+def reopen(study, row, reason: str, keyer: str) -> int:
+    """Undo the decision on ``row``: a newer decision that leaves it open again.
+
+    >>> reopen(study, rows.iloc[0], "decided on the wrong form", "LM")   # doctest: +SKIP
+    """
+    return decide(study, row, REOPEN, "", "", reason, keyer)
+
+
+# --------------------------------------------------------------------------- form level
+
+
+def pair_forms(study, row, keep_id_from_pass: int, reason: str, keyer: str,
+               partner: int | None = None) -> int:
+    """Pair a form keyed in one pass only with its partner, correcting the mistyped ID.
+
+    ``row`` is an ``only_in_pass1``/``only_in_pass2`` row; ``partner`` is the
+    other pass's form id (default: the row's suggested ``_partner``).
+    ``keep_id_from_pass`` names the pass whose ID is right; the other form's
+    ID field is set to it by the resolver (journaled as a keyed change).
+
+    >>> pair_forms(study, rows.iloc[0], 1, "form number mistyped in one pass", "LM")  # doctest: +SKIP
+    """
+    kind = _text(row, "kind")
+    if kind not in ("only_in_pass1", "only_in_pass2"):
+        raise DecisionError(
+            f"participant {_text(row, 'participant')} has no form in one pass only "
+            f"({kind or 'no kind'}) — pair only a form keyed in one pass."
+        )
+    if keep_id_from_pass not in (1, 2):
+        raise DecisionError(f"pass {keep_id_from_pass} does not exist — keep pass 1's or pass 2's ID.")
+    here = 1 if kind == "only_in_pass1" else 2
+    own = _forms_of(row)[here - 1]
+    if partner is None:
+        partner = _int_or_none(_get(row, "_partner"))
+    if own is None or partner is None:
+        raise DecisionError(
+            f"participant {_text(row, 'participant')} has no suggested partner form "
+            "— give the other pass's form number."
+        )
+    form1, form2 = (own, partner) if here == 1 else (partner, own)
+    id_name = study.codebook.id_variable.name
+    right_form = form1 if keep_id_from_pass == 1 else form2
+    wrong_form = form2 if keep_id_from_pass == 1 else form1
+    right_id = study.form(right_form).texts.get(id_name) or ""
+    if not str(right_id).strip():
+        raise DecisionError(
+            f"form {right_form} has no participant ID — key it before pairing."
+        )
+    reason = _need_reason(reason)
+    keyer = _need_keyer(keyer)
+    with study.transaction():
+        study.set_value(wrong_form, id_name, right_id, KEYED, keyer)
+        return study.add_decision(
+            _text(row, "participant"), "", PAIR, right_id, KEYED, reason, keyer,
+            _text(row, "pass1"), _text(row, "pass2"), kind, form1=form1, form2=form2,
+        )
+
+
+def drop_duplicate(study, form_id: int, reason: str, keyer: str, row=None) -> int:
+    """Drop one of two forms with the same ID in one pass: the same paper keyed twice.
+
+    The form is marked dropped by the store (journaled, never deleted); a
+    ``drop`` decision records it for the report.
+
+    >>> drop_duplicate(study, 31, "same form keyed twice", "LM")   # doctest: +SKIP
+    """
+    reason = _need_reason(reason)
+    keyer = _need_keyer(keyer)
+    record = study.form(int(form_id))
+    id_name = study.codebook.id_variable.name
+    participant = _canonical_id(study.codebook, record.texts.get(id_name) or "")
+    pass_no = record.pass_no
+    p1 = _text(row, "pass1") if row is not None else ""
+    p2 = _text(row, "pass2") if row is not None else ""
+    with study.transaction():
+        study.drop_form(int(form_id), reason, keyer)
+        return study.add_decision(
+            participant, "", DROP, str(form_id), None, reason, keyer, p1, p2, "duplicate_id",
+            form1=int(form_id) if pass_no != 2 else None,
+            form2=int(form_id) if pass_no == 2 else None,
+        )
+
+
+def confirm_one_pass(study, row, reason: str, keyer: str) -> int:
+    """Confirm that a form keyed in one pass only is a real paper form.
+
+    The row stays ``open`` (``_decision_action`` = ``one_pass_only``) until
+    the other pass keys that form: a verified value needs two passes.
+
+    >>> confirm_one_pass(study, rows.iloc[0], "paper found, not yet keyed in pass 2", "LM")  # doctest: +SKIP
+    """
+    kind = _text(row, "kind")
+    if kind not in ("only_in_pass1", "only_in_pass2"):
+        raise DecisionError(
+            f"participant {_text(row, 'participant')} is not a form in one pass only — "
+            "confirm only such forms."
+        )
+    return decide(study, row, ONE_PASS_ONLY, "", "", reason, keyer)
+
+
+# --------------------------------------------------------------------------- independence
+
+
+def keyed_by(study, participant: str) -> set[str]:
+    """Keyers of the forms (not dropped) whose ID is ``participant``.
+
+    >>> keyed_by(study, "17")                          # doctest: +SKIP
+    {'AB', 'JM'}
+    """
+    forms = study.forms()
+    if forms.empty:
+        return set()
+    ids = _canonical_ids(study.codebook, forms["participant"])
+    live = ~forms["dropped"].fillna(False).astype(bool)
+    mine = forms[(ids == _canonical_id(study.codebook, participant)).to_numpy() & live.to_numpy()]
+    return {str(k) for k in mine["keyer"].dropna() if str(k).strip()}
+
+
+def independence_warning(study, participant: str, resolver: str) -> str | None:
+    """A warning when ``resolver`` keyed one of ``participant``'s forms; else None.
+
+    Never blocks. Barchard, Freeman, Ochoa & Stephens (2020, Behavior
+    Research Methods) found that errors left after double entry come from
+    making the two entries agree rather than checking the paper, and advise
+    resolving against the paper, ideally by someone else.
+
+    >>> independence_warning(study, "17", "AB")        # doctest: +SKIP
+    'You (AB) keyed a pass of participant 17: ...'
+    """
+    who = str(resolver).strip()
+    if not who or who not in keyed_by(study, participant):
+        return None
+    return (
+        f"You ({who}) keyed a pass of participant {participant}: check each value "
+        "against the paper, not against the other pass, or ask someone else to resolve it."
+    )
+
+
+# --------------------------------------------------------------------------- set aside
+
+
+def set_aside(study, participant: str, reason: str, keyer: str, rule: str = "") -> None:
+    """Keep ``participant`` out of the analysis file, with the reason (journaled).
+
+    ``rule`` optionally names the rule applied (e.g. ``"fewer than half answered"``)
+    so the same reason is used consistently. Refused for an unknown participant.
+
+    >>> set_aside(study, "17", "answered a different version", "LM")   # doctest: +SKIP
+    """
+    participant = _known_participant(study, participant)
+    reason = _need_reason(reason)
+    keyer = _need_keyer(keyer)
+    # Setting aside again replaces the reason (the store journals both).
+    study.set_aside(participant, reason, keyer, rule=str(rule or "").strip())
+
+
+def restore(study, participant: str, reason: str, keyer: str) -> None:
+    """Bring a set-aside participant back into the analysis file (journaled).
+
+    >>> restore(study, "17", "set aside by mistake", "LM")   # doctest: +SKIP
+    """
+    participant = _canonical_id(study.codebook, participant)
+    reason = _need_reason(reason)
+    keyer = _need_keyer(keyer)
+    if participant not in set(set_aside_list(study)["participant"].astype(str)):
+        raise DecisionError(f"participant {participant} is not set aside — nothing to restore.")
+    study.restore_participant(participant, reason, keyer)
+
+
+def set_aside_list(study) -> pd.DataFrame:
+    """Participants set aside now: participant, reason, rule, keyer, at.
+
+    >>> set_aside_list(study)["participant"].tolist()   # doctest: +SKIP
+    ['17']
+    """
+    table = study.set_asides()
+    if table is None or table.empty:
+        return pd.DataFrame(columns=["participant", "reason", "rule", "keyer", "at"])
+    return table.reset_index(drop=True)
+
+
+# --------------------------------------------------------------------------- helpers
+
+
+def _text(row, name: str) -> str:
+    value = _get(row, name)
+    if value is None:
+        return ""
+    try:
+        if pd.isna(value):
+            return ""
+    except (TypeError, ValueError):
+        pass
+    return str(value)
+
+
+def _get(row, name: str):
+    if row is None:
+        return None
+    if isinstance(row, dict):
+        return row.get(name)
+    try:
+        return row[name]
+    except (KeyError, IndexError, TypeError):
+        return getattr(row, name, None)
+
+
+def _int_or_none(value) -> int | None:
+    if value is None:
+        return None
+    try:
+        if pd.isna(value):
+            return None
+    except (TypeError, ValueError):
+        pass
+    try:
+        return int(value)
+    except (TypeError, ValueError):
+        return None
+
+
+def _forms_of(row) -> tuple[int | None, int | None]:
+    return _int_or_none(_get(row, "_form1")), _int_or_none(_get(row, "_form2"))
+
+
+def _need_reason(reason: str) -> str:
+    text = " ".join(str(reason or "").split())
+    if not text:
+        raise DecisionError("a decision needs a reason — pick one from the list or type one.")
+    return text
+
+
+def _need_keyer(keyer: str) -> str:
+    text = str(keyer or "").strip()
+    if not text:
+        raise DecisionError("a decision needs the resolver's initials — give --keyer NAME.")
+    return text
+
+
+def _variable(codebook: Codebook, row) -> Variable:
+    name = _text(row, "variable")
+    if not name:
+        raise DecisionError(
+            f"participant {_text(row, 'participant')}: a form-level problem has no field "
+            "to take a value for — pair, drop or confirm the form instead."
+        )
+    if name not in codebook:
+        raise DecisionError(f'"{name}" is not a variable of this study — check the name.')
+    return codebook[name]
+
+
+def _check_value(var: Variable, text: str, keep: bool, where: str = "") -> str:
+    """The store action for ``text`` in ``var``, or DecisionError when it cannot stand."""
+    parsed = parse(var, text)
+    if parsed.problem == INVALID_TYPE:
+        raise DecisionError(
+            f'{where}"{text.strip()}" cannot stand in {var.name}: {parsed.message[:-1]} '
+            "— type the paper's value, blank or a missing code."
+        )
+    if parsed.problem:
+        if not keep:
+            raise DecisionError(
+                f'{where}"{text.strip()}" is outside {var.name}\'s rule '
+                f"({parsed.message[:-1]}) — keep it only if the paper really says it."
+            )
+        return KEEP
+    return VALUE
+
+
+def _pass_value(study, row, pass_no: int) -> tuple[str, str]:
+    form = _forms_of(row)[pass_no - 1]
+    name = _text(row, "variable")
+    if form is not None and name:
+        record = study.form(form)
+        state = (record.states or {}).get(name)
+        if state is None:
+            raise DecisionError(
+                f"pass {pass_no} has not keyed {name} for participant "
+                f"{_text(row, 'participant')} — key it first or type the paper's value."
+            )
+        return str((record.texts or {}).get(name) or ""), str(state)
+    shown = _text(row, f"pass{pass_no}")
+    if shown == ILLEGIBLE_SHOWN:
+        return "", ILLEGIBLE
+    return shown, KEYED if shown.strip() else BLANK
+
+
+def _canonical_set(var: Variable, values: Iterable[str]) -> set[str]:
+    values = list(values)
+    if not values:
+        return set()
+    canon, _ = canonical_series(var, pd.Series(values, dtype=object))
+    return set(canon.dropna())
+
+
+def _canonical_ids(codebook: Codebook, texts: pd.Series) -> pd.Series:
+    canon, _ = canonical_series(codebook.id_variable, texts.astype(object))
+    return canon.astype("string").fillna("")
+
+
+def _canonical_id(codebook: Codebook, text: str) -> str:
+    return str(_canonical_ids(codebook, pd.Series([str(text)], dtype=object)).iloc[0])
+
+
+def _known_participant(study, participant: str) -> str:
+    wanted = _canonical_id(study.codebook, participant)
+    forms = study.forms()
+    ids = set(_canonical_ids(study.codebook, forms["participant"])) if len(forms) else set()
+    if not wanted or wanted not in ids:
+        raise DecisionError(
+            f'participant "{participant}" has no form in this study — check the ID.'
+        )
+    return wanted
+
+
+ProgressFn = Callable[[int, int], None]
+
+
+# --------------------------------------------------------------------------- decisions file
+
+_FILE_COLUMNS = ("participant", "variable", "value", "reason")
+
+
+def apply_decisions_file(study, path, keyer: str) -> int:
+    """Apply a decisions file (CSV or XLSX) all or nothing; returns decisions recorded.
+
+    Columns ``participant, variable, value, reason`` (any order, more are
+    ignored). Every row is checked before anything is written: an unknown
+    participant or variable, a cell with nothing open, a value that cannot
+    stand, a missing reason or a second row for the same cell refuses the
+    whole file with a :class:`DecisionError` naming the file, row and column.
+    Then all rows apply in one transaction. See the module docstring for
+    blanks, missing codes and ``paper says:``.
+
+    >>> apply_decisions_file(study, "decisions.csv", "LM")   # doctest: +SKIP
+    12
+    """
+    path = Path(path)
+    keyer = _need_keyer(keyer)
+    table = _read_decisions(path)
+    codebook = study.codebook
+    rows = worklist(study)
+    pending = rows[(rows["_status"] != SETTLED) & (rows["variable"].astype("string").fillna("") != "")]
+    open_at: dict[tuple[str, str], list[int]] = {}
+    for i, p, v in zip(pending.index, pending["participant"].astype(str),
+                       pending["variable"].astype(str), strict=True):
+        open_at.setdefault((p, v), []).append(i)
+    forms = study.forms()
+    known = set(_canonical_ids(codebook, forms["participant"])) if len(forms) else set()
+    ids = _canonical_ids(codebook, table["participant"])
+    plan: list[tuple[pd.Series, str, str, str, str]] = []
+    seen: dict[tuple[str, str], int] = {}
+    for pos, (participant, raw) in enumerate(zip(ids, table.itertuples(index=False), strict=True)):
+        line = pos + 2  # the header is row 1, as a spreadsheet shows it
+
+        def bad(column: str, what: str, line: int = line) -> DecisionError:
+            return DecisionError(f'{path.name} row {line}, column "{column}": {what}.')
+
+        name = raw.variable.strip()
+        if not raw.participant.strip():
+            raise bad("participant", "the participant ID is empty — fill it in")
+        if participant not in known:
+            raise bad("participant", f'"{raw.participant.strip()}" has no form in this study — check the ID')
+        if name not in codebook:
+            raise bad("variable", f'"{name}" is not a variable of this study — check the name')
+        reason = " ".join(raw.reason.split())
+        if not reason:
+            raise bad("reason", "the reason is empty — say why this value stands")
+        cell = (participant, name)
+        if cell not in open_at:
+            raise bad("variable", f"participant {participant} has nothing open in {name} — remove the row")
+        if cell in seen:
+            raise bad("variable", f"participant {participant}, {name} is already decided in row {seen[cell]} — keep one row")
+        seen[cell] = line
+        value = raw.value.strip()
+        if value:
+            keep = reason.lower().startswith(KEEP_PREFIX)
+            try:
+                action = _check_value(codebook[name], value, keep)
+            except DecisionError as exc:
+                raise bad("value", str(exc)[:-1]) from None
+            state = KEYED
+        else:
+            action, state = VALUE, BLANK
+        for i in open_at[cell]:
+            plan.append((rows.loc[i], action, value, state, reason))
+    with study.transaction():
+        for row, action, value, state, reason in plan:
+            decide(study, row, action, value, state, reason, keyer)
+    return len(plan)
+
+
+def _read_decisions(path: Path) -> pd.DataFrame:
+    """The decisions file as text columns (header row lower-cased, trimmed)."""
+    if not path.is_file():
+        raise DecisionError(f"{path.name} does not exist — check the file name.")
+    suffix = path.suffix.lower()
+    try:
+        if suffix == ".xlsx":
+            table = _read_xlsx(path)
+        elif suffix in (".csv", ".txt", ".tsv"):
+            table = pd.read_csv(path, dtype=str, keep_default_na=False, sep=None,
+                                engine="python", encoding="utf-8-sig")
+        else:
+            raise DecisionError(f"{path.name} is neither .csv nor .xlsx — save it as one of them.")
+    except DecisionError:
+        raise
+    except (UnicodeDecodeError, ValueError, OSError, pd.errors.ParserError) as exc:
+        raise DecisionError(f"{path.name} could not be read as a table ({exc}) — save it as UTF-8 CSV or XLSX.") from None
+    table.columns = [str(c).strip().lower() for c in table.columns]
+    for col in _FILE_COLUMNS:
+        if col not in table.columns:
+            raise DecisionError(
+                f'{path.name} row 1, column "{col}" is missing — the file needs the columns '
+                "participant, variable, value, reason."
+            )
+    return table[list(_FILE_COLUMNS)].astype(str).reset_index(drop=True)
+
+
+def _read_xlsx(path: Path) -> pd.DataFrame:
+    from openpyxl import load_workbook
+
+    book = load_workbook(path, read_only=True, data_only=True)
+    try:
+        sheet = book["decisions"] if "decisions" in book.sheetnames else book.worksheets[0]
+        cells = [[_cell_text(v) for v in r] for r in sheet.iter_rows(values_only=True)]
+    finally:
+        book.close()
+    if not cells:
+        return pd.DataFrame(columns=list(_FILE_COLUMNS))
+    width = len(cells[0])
+    body = [(r + [""] * width)[:width] for r in cells[1:] if any(c.strip() for c in r)]
+    return pd.DataFrame(body, columns=cells[0], dtype=object)
+
+
+def _cell_text(value) -> str:
+    """A spreadsheet cell as the text a person sees (whole numbers without ``.0``)."""
+    if value is None:
+        return ""
+    if isinstance(value, bool):
+        return str(value).upper()
+    if isinstance(value, float) and value.is_integer():
+        return str(int(value))
+    if hasattr(value, "date") and hasattr(value, "isoformat"):
+        return value.date().isoformat() if hasattr(value, "hour") else value.isoformat()
+    return str(value)
+
+
+# --------------------------------------------------------------------------- verified table
+
+
+def verified_table(study, draft: bool = False, progress: ProgressFn | None = None) -> Verified:
+    """What stands for every participant not set aside, typed per the codebook.
+
+    A cell holds the agreed value where both passes agree and nothing is
+    open, else the value of its settled decision; blank and illegible paper
+    give NA, and declared missing codes stay as codes. Forms are paired by
+    ID; dropped forms are left out. While anything is open (set-aside
+    participants aside) it refuses with :class:`OpenWorkError` (counts by
+    kind), unless ``draft``: open cells are then NA and listed in
+    ``open_cells``, and a participant with an open form-level problem has
+    only its ID. ``progress(done, total)`` is called once per variable.
+
+    >>> verified_table(study).data.head()             # doctest: +SKIP
+    """
+    codebook = study.codebook
+    rows = worklist(study)
+    aside = set_aside_list(study)
+    aside_ids = set(aside["participant"].astype(str))
+    participants = rows["participant"].astype("string").fillna("")
+    in_file = ~participants.isin(aside_ids)
+    pending = rows[(rows["_status"] != SETTLED) & in_file]
+    counts = {str(k): int(v) for k, v in pending["kind"].value_counts().items()}
+    if len(pending) and not draft:
+        total = len(pending)
+        listed = ", ".join(f"{v} {k}" for k, v in sorted(counts.items()))
+        raise OpenWorkError(
+            f"{_study_name(study)} has {total} open discrepanc{'y' if total == 1 else 'ies'} "
+            f"({listed}) — settle them with keyproof resolve or decide, or export a draft.",
+            counts,
+        )
+    id_var = codebook.id_variable
+    base = _base_texts(study, codebook)
+    base = base[~base.index.isin(aside_ids)]
+    form_open = set(pending.loc[pending["kind"].isin(FORM_KINDS), "participant"].astype(str))
+    settled = rows[(rows["_status"] == SETTLED) & in_file
+                   & (rows["variable"].astype("string").fillna("") != "")
+                   & rows["_decision_action"].isin([VALUE, KEEP])]
+    settled = settled.drop_duplicates(["participant", "variable"], keep="last")
+    open_cell = pending[pending["variable"].astype("string").fillna("") != ""]
+    data = {}
+    total = len(codebook)
+    for done, var in enumerate(codebook, start=1):
+        text = base[(var.name, "text")].copy()
+        state = base[(var.name, "state")]
+        text[state.isin([BLANK, ILLEGIBLE]) | state.isna()] = None
+        if not var.is_id:
+            mine = settled[settled["variable"] == var.name]
+            if len(mine):
+                stood = mine["_decision_value"].where(mine["_decision_state"] == KEYED, None)
+                stood.index = mine["participant"].astype(str)
+                hit = text.index.isin(stood.index)
+                text[hit] = stood.reindex(text.index[hit]).to_numpy()
+            gone = set(open_cell.loc[open_cell["variable"] == var.name, "participant"].astype(str))
+            text[text.index.isin(gone | form_open)] = None
+        canon, valid = canonical_series(var, text.astype(object))
+        data[var.name] = _typed_column(var, canon.where(valid, None))
+        if progress is not None:
+            progress(done, total)
+    frame = pd.DataFrame(data, index=base.index)
+    frame = frame.iloc[_natural_order(frame.index)].reset_index(drop=True)
+    open_cells = pending[["participant", "variable", "kind"]].reset_index(drop=True)
+    return Verified(
+        codebook=codebook,
+        data=frame[[v.name for v in codebook]] if id_var else frame,
+        open_cells=open_cells,
+        set_aside=aside,
+        decisions=_decisions_that_count(study, rows),
+        kept=_kept(rows[in_file]),
+        head=study.journal_head(),
+        study=_study_name(study),
+        draft=bool(draft and len(pending)),
+    )
+
+
+def _base_texts(study, codebook: Codebook) -> pd.DataFrame:
+    """One row per participant (canonical ID): pass 1's form, else pass 2's.
+
+    Columns are (variable, "text"/"state"). Where both passes agree this is
+    the agreed value; every other cell is overridden by a decision or opened.
+    """
+    id_name = codebook.id_variable.name
+    parts = []
+    for pass_no in (1, 2):
+        data = study.load_pass(pass_no)
+        if data.text.empty:
+            continue
+        ids = _canonical_ids(codebook, data.text[id_name]).to_numpy()
+        text = data.text.copy()
+        state = data.state.reindex(index=text.index, columns=text.columns)
+        text.index = state.index = pd.Index(ids, name="participant")
+        part = pd.concat({"text": text, "state": state}, axis=1).swaplevel(0, 1, axis=1)
+        parts.append(part[~part.index.duplicated(keep="first") & (part.index != "")])
+    if not parts:
+        columns = pd.MultiIndex.from_product([codebook.names, ["text", "state"]])
+        return pd.DataFrame(columns=columns, index=pd.Index([], name="participant"))
+    base = parts[0]
+    if len(parts) == 2:
+        base = pd.concat([base, parts[1][~parts[1].index.isin(base.index)]])
+    return base.astype(object)
+
+
+def _typed_column(var: Variable, canon: pd.Series) -> pd.Series:
+    """Canonical texts (None = NA) as the variable's pandas type."""
+    if var.type == "integer":
+        return pd.to_numeric(canon.astype("string"), errors="coerce").astype("Int64")
+    if var.type == "number":
+        return pd.to_numeric(canon.astype("string"), errors="coerce").astype("Float64")
+    if var.type == "date":
+        return pd.to_datetime(canon, format="%Y-%m-%d", errors="coerce")
+    return canon.astype("string")
+
+
+def _natural_order(ids: pd.Index) -> list[int]:
+    """Positions of ``ids`` in natural order (2 before 10; texts after numbers)."""
+    import re
+
+    def key(text: str):
+        parts = re.split(r"(\d+)", str(text))
+        return [(0, int(p), "") if p.isdigit() else (1, 0, p) for p in parts if p]
+
+    return sorted(range(len(ids)), key=lambda i: key(ids[i]))
+
+
+def _decisions_that_count(study, rows: pd.DataFrame) -> pd.DataFrame:
+    """Newest decision per key, not undone and not stale, oldest first."""
+    newest = _newest(study.decisions())
+    if newest.empty:
+        return newest
+    newest = newest[newest["action"] != REOPEN]
+    stale = rows.loc[rows["_status"] == STALE, "_decision_id"].dropna()
+    return newest[~newest["decision_id"].isin(set(stale))].reset_index(drop=True)
+
+
+def _kept(rows: pd.DataFrame) -> pd.DataFrame:
+    kept = rows[(rows["_status"] == SETTLED) & (rows["_decision_action"] == KEEP)]
+    out = kept[["participant", "variable", "_decision_value", "_decision_reason"]]
+    return out.rename(columns={"_decision_value": "value", "_decision_reason": "reason"}
+                      ).reset_index(drop=True)
+
+
+def _study_name(study) -> str:
+    return str(getattr(study, "name", "") or "the study")
