@@ -1,0 +1,858 @@
+"""Screening before analysis: scale scores, reliability, agreement, descriptives, outliers.
+
+Pure functions over the verified table (a DataFrame) and the codebook; no
+store. Declared missing codes are data about the paper, not values, so every
+statistic here leaves them out (and counts them). Choices stated once:
+
+- Scale scores: reverse-keyed items as (min + max - x); a score is missing
+  when fewer than ``min_answered`` (share, default 0.8, common practice) of a
+  scale's items are answered; a *sum* score with some items missing is
+  prorated (sum x k / answered) and counted.
+- Cronbach's alpha is listwise (rows with every item answered), variances
+  with n - 1. Split-half uses odd/even items in paper order with the
+  Spearman-Brown correction.
+- SD uses n - 1. Skewness and kurtosis are the adjusted Fisher-Pearson G1 and
+  the adjusted excess kurtosis G2 (what common statistics packages print).
+- Outliers: |z| above 3.29 (z from the mean and the n - 1 SD; common
+  practice) and Tukey's fences at 1.5 x IQR, quartiles by linear
+  interpolation between order statistics (numpy's default, Hyndman-Fan type 7).
+
+Small loops run per item or per variable, never per cell.
+
+Longer than the house's ~600 lines on purpose: scoring, reliability,
+descriptives and set-aside rules are one small vocabulary that the command
+line, the report and the app's screening view use together; split it (rules
+and the JSON shape first) when that view lands.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+from .codebook import DEFAULT_MIN_ANSWERED, Codebook, Variable
+from .errors import CodebookError, UsageError
+from .passdata import PassData
+from .values import KEYED, canonical_series
+
+Z_THRESHOLD = 3.29
+"""Default |z| for an outlier candidate (two-sided p < .001; common practice)."""
+TUKEY_K = 1.5
+"""Tukey's fences: this many IQRs beyond the quartiles."""
+MIN_ANSWERED = DEFAULT_MIN_ANSWERED
+"""Default share of a scale's items that must be answered (0.8, common practice)."""
+NUMERIC = ("integer", "number")
+
+
+# ---------------------------------------------------------------- cleaning
+
+
+def numeric_values(series: pd.Series, var: Variable) -> tuple[pd.Series, dict[str, int]]:
+    """``series`` as float64 with declared missing codes and NA as NaN, plus counts per code.
+
+    >>> from core.codebook import Code, Variable
+    >>> v = Variable("q", "integer", missing=(Code("-9", "refused"),))
+    >>> x, miss = numeric_values(pd.Series([1, -9, None], dtype="Int64"), v)
+    >>> x.isna().tolist(), miss
+    ([False, True, True], {'-9': 1})
+    """
+    x = pd.to_numeric(series, errors="coerce").astype("float64")
+    counts: dict[str, int] = {}
+    for code in var.missing_values:
+        value = pd.to_numeric(pd.Series([code]), errors="coerce").iloc[0]
+        hit = x == value
+        counts[code] = int(hit.sum())
+        x = x.mask(hit)
+    return x, counts
+
+
+def _text_values(series: pd.Series, var: Variable) -> tuple[pd.Series, dict[str, int]]:
+    s = series.astype("string")
+    counts: dict[str, int] = {}
+    for code in var.missing_values:
+        hit = (s == code).fillna(False)
+        counts[code] = int(hit.sum())
+        s = s.mask(hit)
+    return s, counts
+
+
+def _participants(data: pd.DataFrame, codebook: Codebook) -> pd.Series:
+    try:
+        name = codebook.id_variable.name
+    except KeyError:
+        name = None
+    if name and name in data.columns:
+        return data[name].astype("string")
+    return pd.Series(data.index.astype(str), index=data.index, dtype="string")
+
+
+def _score_setting(items: tuple[Variable, ...]) -> tuple[str, float]:
+    # The codebook loader checks that every item of a scale agrees; the first speaks for all.
+    share = items[0].min_answered
+    return items[0].score or "mean", MIN_ANSWERED if share is None else float(share)
+
+
+def _bounds(var: Variable) -> tuple[float, float]:
+    if var.min is not None and var.max is not None:
+        return float(var.min), float(var.max)
+    codes = pd.to_numeric(pd.Series(var.code_values, dtype=object), errors="coerce").dropna()
+    if len(codes):
+        return float(codes.min()), float(codes.max())
+    where = f"{var.name!r}" + (f" (codebook row {var.row})" if var.row else "")
+    raise CodebookError(
+        f"codebook variable {where}: a reverse-keyed item needs min and max (or numeric codes)"
+        " — add them so the item can be reversed."
+    )
+
+
+# ---------------------------------------------------------------- scale scores
+
+
+@dataclass(frozen=True)
+class ScaleScores:
+    """Scale scores per participant and how they came about.
+
+    ``scores``: one row per row of the data (same index), the ID column then
+    one float column per scale (NaN where too few items were answered).
+    ``items``: scale -> its items as scored (reversed where reverse-keyed,
+    missing codes as NaN). ``method``: scale -> "sum" or "mean";
+    ``min_answered``: scale -> share; ``prorated``: scale -> how many sum
+    scores were scaled up from fewer items; ``too_few``: scale -> how many
+    scores are missing because too few items were answered.
+    """
+
+    scores: pd.DataFrame
+    items: dict[str, pd.DataFrame]
+    method: dict[str, str]
+    min_answered: dict[str, float]
+    prorated: dict[str, int]
+    too_few: dict[str, int]
+
+
+def scale_scores(data: pd.DataFrame, codebook: Codebook) -> ScaleScores:
+    """Score every scale of ``codebook`` from the keyed items in ``data``.
+
+    >>> from core.codebook import Codebook, Variable
+    >>> cb = Codebook((Variable("id", "string", is_id=True),
+    ...                Variable("a1", "integer", min=1, max=5, scale="A"),
+    ...                Variable("a2", "integer", min=1, max=5, scale="A", reverse=True)))
+    >>> df = pd.DataFrame({"id": ["p1"], "a1": [4], "a2": [2]})
+    >>> scale_scores(df, cb).scores["A"].tolist()   # (4 + (1 + 5 - 2)) / 2
+    [4.0]
+    """
+    scores = pd.DataFrame({"participant": _participants(data, codebook)}, index=data.index)
+    items_out, method, share_out, prorated, too_few = {}, {}, {}, {}, {}
+    for scale, items in codebook.scales.items():
+        how, share = _score_setting(items)
+        cols = {}
+        for var in items:
+            x, _ = numeric_values(data[var.name], var)
+            if var.reverse:
+                low, high = _bounds(var)
+                x = low + high - x
+            cols[var.name] = x
+        table = pd.DataFrame(cols, index=data.index)
+        k = table.shape[1]
+        answered = table.notna().sum(axis=1)
+        # A tiny tolerance so 4 of 5 items meets a share of 0.8 exactly.
+        enough = answered >= share * k - 1e-9
+        enough &= answered > 0
+        if how == "sum":
+            score = table.sum(axis=1) * k / answered.where(answered > 0)
+            prorated[scale] = int((enough & (answered < k)).sum())
+        else:
+            score = table.mean(axis=1)
+            prorated[scale] = 0
+        scores[scale] = score.where(enough).astype("float64")
+        items_out[scale], method[scale], share_out[scale] = table, how, share
+        too_few[scale] = int((~enough).sum())
+    return ScaleScores(scores, items_out, method, share_out, prorated, too_few)
+
+
+# ---------------------------------------------------------------- reliability
+
+
+@dataclass(frozen=True)
+class Alpha:
+    """Cronbach's alpha of a set of items, listwise."""
+
+    alpha: float
+    """NaN when fewer than 2 items or 2 complete rows, or no variance in the total."""
+    n_used: int
+    """Rows with every item answered (the rows alpha is computed on)."""
+    k: int
+    """Number of items."""
+
+
+def cronbach_alpha(items: pd.DataFrame) -> Alpha:
+    """Cronbach's alpha, listwise: k/(k-1) x (1 - sum of item variances / variance of the total).
+
+    >>> cronbach_alpha(pd.DataFrame({"a": [1, 2, 3, 4], "b": [1, 2, 3, 4]})).alpha
+    1.0
+    """
+    complete = items.astype("float64").dropna()
+    k, n = complete.shape[1], len(complete)
+    if k < 2 or n < 2:
+        return Alpha(math.nan, n, k)
+    total_var = complete.sum(axis=1).var(ddof=1)
+    if not total_var > 0:
+        return Alpha(math.nan, n, k)
+    alpha = k / (k - 1) * (1 - complete.var(ddof=1).sum() / total_var)
+    return Alpha(float(alpha), n, k)
+
+
+def item_analysis(items: pd.DataFrame) -> pd.DataFrame:
+    """Per item: alpha if deleted, corrected item-total correlation, negative flag (listwise).
+
+    The corrected item-total correlation is Pearson's r between the item and
+    the sum of the *other* items; a negative one usually means a missed
+    reverse key.
+
+    >>> t = item_analysis(pd.DataFrame({"a": [1, 2, 3, 4], "b": [1, 2, 4, 3], "c": [4, 3, 2, 1]}))
+    >>> t.loc[t["item"] == "c", "negative"].item()
+    True
+    """
+    complete = items.astype("float64").dropna()
+    rows = []
+    for name in complete.columns:
+        rest = complete.drop(columns=name)
+        r = _pearson(complete[name], rest.sum(axis=1)) if rest.shape[1] else math.nan
+        rows.append(
+            {
+                "item": name,
+                "alpha_if_deleted": cronbach_alpha(rest).alpha,
+                "item_total_r": r,
+                "negative": bool(r < 0),
+            }
+        )
+    return pd.DataFrame(rows, columns=["item", "alpha_if_deleted", "item_total_r", "negative"])
+
+
+def _pearson(a: pd.Series, b: pd.Series) -> float:
+    if len(a) < 2 or a.std(ddof=1) == 0 or b.std(ddof=1) == 0:
+        return math.nan
+    return float(np.corrcoef(a.to_numpy(float), b.to_numpy(float))[0, 1])
+
+
+def spearman_brown(r: float, factor: float = 2.0) -> float:
+    """Reliability of a test ``factor`` times as long, from reliability (or half-test r) ``r``.
+
+    >>> round(spearman_brown(0.6), 2)
+    0.75
+    """
+    return factor * r / (1 + (factor - 1) * r)
+
+
+@dataclass(frozen=True)
+class SplitHalf:
+    """Odd/even split-half reliability."""
+
+    r_halves: float
+    """Pearson's r between the sums of odd and even items (paper order); NaN if undefined."""
+    spearman_brown: float
+    """``r_halves`` corrected to the full length (Spearman-Brown, factor 2)."""
+    n_used: int
+    """Rows with every item answered."""
+
+
+def split_half(items: pd.DataFrame) -> SplitHalf:
+    """Split items into 1st, 3rd, ... and 2nd, 4th, ...; correlate the half sums.
+
+    >>> split_half(pd.DataFrame({"a": [1, 2, 3], "b": [2, 3, 4]})).spearman_brown
+    1.0
+    """
+    complete = items.astype("float64").dropna()
+    if complete.shape[1] < 2:
+        return SplitHalf(math.nan, math.nan, len(complete))
+    odd = complete.iloc[:, 0::2].sum(axis=1)
+    even = complete.iloc[:, 1::2].sum(axis=1)
+    r = _pearson(odd, even)
+    return SplitHalf(r, spearman_brown(r) if r == r else math.nan, len(complete))
+
+
+@dataclass(frozen=True)
+class Kappa:
+    """Cohen's kappa between two codings of the same cases."""
+
+    kappa: float
+    """(po - pe) / (1 - pe); NaN when there are no pairs or chance agreement is 1."""
+    agreement: float
+    """Observed share of pairs that agree (po), 0..1; NaN without pairs."""
+    n: int
+    """Pairs where both codings have a value."""
+
+
+def cohen_kappa(a: pd.Series, b: pd.Series) -> Kappa:
+    """Cohen's (unweighted) kappa between two aligned series; pairs with a missing side left out.
+
+    >>> cohen_kappa(pd.Series([1, 1, 2, 2]), pd.Series([1, 1, 2, 1])).agreement
+    0.75
+    """
+    a = pd.Series(a).reset_index(drop=True)
+    b = pd.Series(b).reset_index(drop=True)
+    both = a.notna() & b.notna()
+    a, b = _same_kind(a[both]), _same_kind(b[both])
+    n = len(a)
+    if n == 0:
+        return Kappa(math.nan, math.nan, 0)
+    po = float((a == b).mean())
+    pa, pb = a.value_counts(normalize=True), b.value_counts(normalize=True)
+    pe = float((pa * pb.reindex(pa.index, fill_value=0)).sum())
+    kappa = (po - pe) / (1 - pe) if pe < 1 else math.nan
+    return Kappa(float(kappa), po, n)
+
+
+def _same_kind(s: pd.Series) -> pd.Series:
+    # Numbers compare by value (1 == 1.0 == "01"); anything else by its text.
+    x = pd.to_numeric(s, errors="coerce")
+    return x.astype("float64").astype(str) if x.notna().all() else s.astype(str)
+
+
+def kappa_pairs_from_passes(
+    codebook: Codebook, pass1: PassData, pass2: PassData
+) -> dict[str, tuple[pd.Series, pd.Series]]:
+    """For coded variables, the two passes' values paired by participant ID.
+
+    Forms whose ID appears more than once in a pass are left out (their
+    pairing is a discrepancy still to resolve). Blank, illegible, invalid
+    and declared missing values are NA, so kappa sees only codes.
+
+    >>> from core.codebook import Code, Codebook, Variable
+    >>> cb = Codebook((Variable("id", is_id=True), Variable("q", "integer", codes=(Code("1"), Code("2")))))
+    >>> p1 = PassData.from_texts(1, pd.DataFrame({"id": ["a", "b"], "q": ["1", "2"]}))
+    >>> p2 = PassData.from_texts(2, pd.DataFrame({"id": ["b", "a"], "q": ["2", "01"]}))
+    >>> [s.tolist() for s in kappa_pairs_from_passes(cb, p1, p2)["q"]]
+    [['1', '2'], ['1', '2']]
+    """
+    id_name = codebook.id_variable.name
+
+    def by_id(p: PassData) -> tuple[pd.DataFrame, pd.DataFrame]:
+        ids = p.text[id_name].astype("string").str.strip()
+        once = ~ids.duplicated(keep=False) & ids.notna() & (ids != "")
+        return p.text[once].set_index(ids[once]), p.state[once].set_index(ids[once])
+
+    t1, s1 = by_id(pass1)
+    t2, s2 = by_id(pass2)
+    common = t1.index.intersection(t2.index)
+    out = {}
+    for var in codebook:
+        if not var.codes or var.is_id:
+            continue
+        sides = []
+        for text, state in ((t1, s1), (t2, s2)):
+            col = text.loc[common, var.name].where(state.loc[common, var.name] == KEYED)
+            canon, valid = canonical_series(var, col.astype(object))
+            missing = set(canonical_series(var, pd.Series(var.missing_values, dtype=object))[0])
+            sides.append(canon.where(valid & ~canon.isin(missing)).astype("string").reset_index(drop=True))
+        out[var.name] = (sides[0], sides[1])
+    return out
+
+
+# ---------------------------------------------------------------- descriptives
+
+
+@dataclass(frozen=True)
+class Fences:
+    """Tukey's fences (quartiles by linear interpolation, type 7)."""
+
+    q1: float
+    q3: float
+    low: float
+    """q1 - k x IQR."""
+    high: float
+    """q3 + k x IQR."""
+
+
+def tukey_fences(x: pd.Series, k: float = TUKEY_K) -> Fences:
+    """Quartiles (numpy's default linear method) and the fences k x IQR beyond them.
+
+    >>> tukey_fences(pd.Series([1.0, 2, 3, 4, 5])).high
+    7.0
+    """
+    values = pd.Series(x, dtype="float64").dropna().to_numpy()
+    if len(values) == 0:
+        return Fences(math.nan, math.nan, math.nan, math.nan)
+    q1, q3 = (float(q) for q in np.percentile(values, [25, 75]))
+    return Fences(q1, q3, q1 - k * (q3 - q1), q3 + k * (q3 - q1))
+
+
+def z_scores(x: pd.Series) -> pd.Series:
+    """(x - mean) / SD with SD on n - 1; NaN stays NaN.
+
+    >>> z_scores(pd.Series([1.0, 2.0, 3.0])).tolist()
+    [-1.0, 0.0, 1.0]
+    """
+    x = pd.Series(x, dtype="float64")
+    sd = x.std(ddof=1)
+    if not sd > 0:
+        return pd.Series(math.nan, index=x.index)
+    return (x - x.mean()) / sd
+
+
+def skewness_g1(x: pd.Series) -> float:
+    """Adjusted Fisher-Pearson skewness G1 = g1 x sqrt(n(n-1)) / (n-2); NaN for n < 3.
+
+    >>> skewness_g1(pd.Series([1.0, 2.0, 3.0]))
+    0.0
+    """
+    v = pd.Series(x, dtype="float64").dropna().to_numpy()
+    n = len(v)
+    if n < 3:
+        return math.nan
+    d = v - v.mean()
+    m2, m3 = (d**2).mean(), (d**3).mean()
+    if m2 == 0:
+        return math.nan
+    return float(m3 / m2**1.5 * math.sqrt(n * (n - 1)) / (n - 2))
+
+
+def kurtosis_g2(x: pd.Series) -> float:
+    """Adjusted excess kurtosis G2 = ((n+1) g2 + 6)(n-1) / ((n-2)(n-3)); NaN for n < 4.
+
+    >>> round(kurtosis_g2(pd.Series([1.0, 2, 3, 4])), 2)
+    -1.2
+    """
+    v = pd.Series(x, dtype="float64").dropna().to_numpy()
+    n = len(v)
+    if n < 4:
+        return math.nan
+    d = v - v.mean()
+    m2, m4 = (d**2).mean(), (d**4).mean()
+    if m2 == 0:
+        return math.nan
+    g2 = m4 / m2**2 - 3
+    return float(((n + 1) * g2 + 6) * (n - 1) / ((n - 2) * (n - 3)))
+
+
+@dataclass(frozen=True)
+class Descriptives:
+    """What a researcher checks for one variable (or scale score) before analysis.
+
+    Numbers are NaN where undefined (no numeric values, n too small).
+    ``missing``: declared missing code -> count; ``blank``: NA cells (blank
+    on paper, or open in a draft). ``frequencies``: for coded variables,
+    columns value, label, count, percent (of n). ``outliers_z`` and
+    ``outliers_tukey``: participants flagged, in data order.
+    """
+
+    name: str
+    n: int
+    blank: int
+    missing: dict[str, int] = field(default_factory=dict)
+    mean: float = math.nan
+    sd: float = math.nan
+    median: float = math.nan
+    min: float = math.nan
+    max: float = math.nan
+    skewness: float = math.nan
+    kurtosis: float = math.nan
+    fences: Fences = Fences(math.nan, math.nan, math.nan, math.nan)
+    outliers_z: tuple[str, ...] = ()
+    outliers_tukey: tuple[str, ...] = ()
+    frequencies: pd.DataFrame | None = None
+
+
+def describe(
+    series: pd.Series,
+    var: Variable,
+    participants: pd.Series | None = None,
+    z_threshold: float = Z_THRESHOLD,
+) -> Descriptives:
+    """Descriptives of one column: counts, missing by code, moments, frequencies, outliers.
+
+    ``participants`` (aligned with ``series``) names the flagged outliers;
+    without it the index is used.
+
+    >>> from core.codebook import Variable
+    >>> d = describe(pd.Series([1, 2, 3, None], dtype="Int64"), Variable("x", "integer"))
+    >>> d.n, d.blank, d.mean
+    (3, 1, 2.0)
+    """
+    who = participants if participants is not None else pd.Series(series.index.astype(str))
+    who = pd.Series(who.to_numpy(), index=series.index).astype(str)
+    if var.type not in NUMERIC:
+        s, missing = _text_values(series, var)
+        n = int(s.notna().sum())
+        blank = int(series.isna().sum())
+        return Descriptives(var.name, n, blank, missing, frequencies=_frequencies(s, var, n))
+    x, missing = numeric_values(series, var)
+    n, blank = int(x.notna().sum()), int(series.isna().sum())
+    fences = tukey_fences(x, TUKEY_K)
+    z = z_scores(x)
+    return Descriptives(
+        var.name,
+        n,
+        blank,
+        missing,
+        mean=float(x.mean()) if n else math.nan,
+        sd=float(x.std(ddof=1)) if n > 1 else math.nan,
+        median=float(x.median()) if n else math.nan,
+        min=float(x.min()) if n else math.nan,
+        max=float(x.max()) if n else math.nan,
+        skewness=skewness_g1(x),
+        kurtosis=kurtosis_g2(x),
+        fences=fences,
+        outliers_z=tuple(who[(z.abs() > z_threshold).fillna(False)]),
+        outliers_tukey=tuple(who[((x < fences.low) | (x > fences.high)).fillna(False)]),
+        frequencies=_frequencies(x, var, n) if var.codes else None,
+    )
+
+
+def _frequencies(values: pd.Series, var: Variable, n: int) -> pd.DataFrame | None:
+    if not var.codes:
+        return None
+    if var.type in NUMERIC:
+        keys = pd.to_numeric(pd.Series(var.code_values, dtype=object), errors="coerce")
+    else:
+        keys = pd.Series(var.code_values, dtype="string")
+    counts = [int((values == key).sum()) for key in keys]
+    coded = sum(counts)
+    rows = [(c.value, c.label, cnt) for c, cnt in zip(var.codes, counts, strict=True)]
+    if n - coded:  # values outside the codes (kept because the paper says so)
+        rows.append(("other", "", n - coded))
+    table = pd.DataFrame(rows, columns=["value", "label", "count"])
+    table["percent"] = 100.0 * table["count"] / n if n else math.nan
+    return table
+
+
+def text_histogram(
+    x: pd.Series, var: Variable | None = None, bins: int = 10, width: int = 40
+) -> list[str]:
+    """Plain-text bars for a terminal: one line per code (with its label) or per bin.
+
+    Coded variables get one bar per code; other numbers get ``bins`` equal
+    bins (numpy's histogram: the last bin includes its right edge).
+
+    >>> text_histogram(pd.Series([1.0, 1.0, 2.0]), bins=2, width=4)
+    ['1 – 1.5  ####  2', '1.5 – 2  ##    1']
+    """
+    if var is not None and var.codes:
+        values = numeric_values(x, var)[0] if var.type in NUMERIC else _text_values(x, var)[0]
+        table = _frequencies(values.dropna(), var, int(values.notna().sum()))
+        labels = [f"{v} {lab}".strip() for v, lab in zip(table["value"], table["label"], strict=True)]
+        counts = [int(c) for c in table["count"]]
+    else:
+        values = numeric_values(x, var)[0] if var is not None else pd.Series(x, dtype="float64")
+        values = values.dropna()
+        if values.empty:
+            return []
+        hist, edges = np.histogram(values.to_numpy(), bins=bins)
+        labels = [f"{_num(a)} – {_num(b)}" for a, b in zip(edges[:-1], edges[1:], strict=True)]
+        counts = [int(c) for c in hist]
+    top = max(max(counts), 1)
+    left = max(len(lab) for lab in labels)
+    return [
+        f"{lab.ljust(left)}  {('#' * round(width * cnt / top)).ljust(width)}  {cnt}"
+        for lab, cnt in zip(labels, counts, strict=True)
+    ]
+
+
+def _num(v: float) -> str:
+    return f"{v:.4g}"
+
+
+# ---------------------------------------------------------------- sensitivity
+
+
+def sensitivity(data_all: pd.DataFrame, data_kept: pd.DataFrame, codebook: Codebook) -> pd.DataFrame:
+    """The same descriptives with and without set-aside participants, side by side.
+
+    One row per numeric variable and per scale score: ``name``, then ``n``,
+    ``mean``, ``sd`` and ``median`` for all participants (``_all``) and for
+    those kept (``_kept``).
+
+    >>> from core.codebook import Codebook, Variable
+    >>> cb = Codebook((Variable("id", is_id=True), Variable("x", "number")))
+    >>> every = pd.DataFrame({"id": ["a", "b", "c"], "x": [1.0, 2.0, 30.0]})
+    >>> sensitivity(every, every.iloc[:2], cb)[["name", "mean_all", "mean_kept"]].values.tolist()
+    [['x', 11.0, 1.5]]
+    """
+    columns = ["name"] + [f"{s}_{w}" for s in ("n", "mean", "sd", "median") for w in ("all", "kept")]
+    frames = {"all": data_all, "kept": data_kept}
+    stats = {w: _numeric_table(d, codebook) for w, d in frames.items()}
+    rows = []
+    for name in stats["all"]:
+        row = {"name": name}
+        for w in ("all", "kept"):
+            x = stats[w].get(name, pd.Series(dtype="float64"))
+            row[f"n_{w}"] = int(x.notna().sum())
+            row[f"mean_{w}"] = float(x.mean()) if x.notna().any() else math.nan
+            row[f"sd_{w}"] = float(x.std(ddof=1)) if x.notna().sum() > 1 else math.nan
+            row[f"median_{w}"] = float(x.median()) if x.notna().any() else math.nan
+        rows.append(row)
+    return pd.DataFrame(rows, columns=columns)
+
+
+def _numeric_table(data: pd.DataFrame, codebook: Codebook) -> dict[str, pd.Series]:
+    out = {
+        v.name: numeric_values(data[v.name], v)[0]
+        for v in codebook
+        if v.type in NUMERIC and not v.is_id and not v.identifying and v.name in data
+    }
+    scores = scale_scores(data, codebook).scores
+    for scale in codebook.scales:
+        out[scale] = scores[scale]
+    return out
+
+
+# ---------------------------------------------------------------- rules
+
+
+@dataclass(frozen=True)
+class ZRule:
+    """Set aside everyone whose |z| on ``variable`` is above ``threshold``."""
+
+    variable: str
+    threshold: float = Z_THRESHOLD
+
+    @property
+    def name(self) -> str:
+        """Short name recorded with every set-aside it makes."""
+        return f"z>{_num(self.threshold)}:{self.variable}"
+
+    @property
+    def text(self) -> str:
+        """The rule in a sentence, for the journal and the report."""
+        return (
+            f"|z| above {_num(self.threshold)} on {self.variable} "
+            "(z from the mean and SD, n - 1, of the screened participants; missing codes left out)"
+        )
+
+    def catches(self, data: pd.DataFrame, codebook: Codebook) -> list[str]:
+        """Participants (IDs, in data order) the rule catches.
+
+        >>> from core.codebook import Codebook, Variable
+        >>> cb = Codebook((Variable("id", is_id=True), Variable("x", "number")))
+        >>> ZRule("x", 1.0).catches(pd.DataFrame({"id": ["a", "b", "c"], "x": [1.0, 2, 9]}), cb)
+        ['c']
+        """
+        var = _variable(codebook, self.variable)
+        if var.type not in NUMERIC:
+            raise UsageError(f"rule {self.name}: {var.name} is not a number — pick a numeric variable.")
+        x, _ = numeric_values(data[var.name], var)
+        hit = (z_scores(x).abs() > self.threshold).fillna(False)
+        return _participants(data, codebook)[hit].tolist()
+
+
+@dataclass(frozen=True)
+class BlankItemsRule:
+    """Set aside everyone with more than ``k`` items of ``scale`` blank."""
+
+    scale: str
+    k: int
+
+    @property
+    def name(self) -> str:
+        """Short name recorded with every set-aside it makes."""
+        return f"blank>{self.k}:{self.scale}"
+
+    @property
+    def text(self) -> str:
+        """The rule in a sentence, for the journal and the report."""
+        return (
+            f"more than {self.k} items of scale {self.scale} blank "
+            "(blank on paper or a declared missing code)"
+        )
+
+    def catches(self, data: pd.DataFrame, codebook: Codebook) -> list[str]:
+        """Participants (IDs, in data order) the rule catches.
+
+        >>> from core.codebook import Codebook, Variable
+        >>> cb = Codebook((Variable("id", is_id=True), Variable("a1", "integer", scale="A"),
+        ...                Variable("a2", "integer", scale="A")))
+        >>> df = pd.DataFrame({"id": ["p", "q"], "a1": [None, 1], "a2": [None, None]})
+        >>> BlankItemsRule("A", 1).catches(df, cb)
+        ['p']
+        """
+        items = codebook.scales.get(self.scale)
+        if not items:
+            raise UsageError(f"rule {self.name}: the codebook has no scale {self.scale!r} — check the name.")
+        blank = sum(numeric_values(data[v.name], v)[0].isna().astype(int) for v in items)
+        return _participants(data, codebook)[blank > self.k].tolist()
+
+
+def parse_rule(text: str) -> ZRule | BlankItemsRule:
+    """Read a rule written ``z:VARIABLE[:THRESHOLD]`` or ``blank:SCALE:K``.
+
+    >>> parse_rule("z:age:3")
+    ZRule(variable='age', threshold=3.0)
+    >>> parse_rule("blank:anx:2")
+    BlankItemsRule(scale='anx', k=2)
+    """
+    parts = [p.strip() for p in text.split(":")]
+    try:
+        if parts[0] == "z" and len(parts) in (2, 3) and parts[1]:
+            return ZRule(parts[1], float(parts[2]) if len(parts) == 3 else Z_THRESHOLD)
+        if parts[0] == "blank" and len(parts) == 3 and parts[1]:
+            k = int(parts[2])
+            if k >= 0:
+                return BlankItemsRule(parts[1], k)
+    except ValueError:
+        pass
+    raise UsageError(
+        f"rule {text!r} is not understood — write z:VARIABLE[:THRESHOLD] or blank:SCALE:K."
+    )
+
+
+def _variable(codebook: Codebook, name: str) -> Variable:
+    if name not in codebook:
+        raise UsageError(f"the codebook has no variable {name!r} — check the name.")
+    return codebook[name]
+
+
+# ---------------------------------------------------------------- everything at once
+
+
+@dataclass(frozen=True)
+class ScaleResult:
+    """Screening of one scale: reliability, items and its score's descriptives."""
+
+    name: str
+    items: list[str]
+    alpha: Alpha
+    item_table: pd.DataFrame
+    split: SplitHalf
+    method: str
+    min_answered: float
+    prorated: int
+    too_few: int
+    score: Descriptives
+
+
+@dataclass(frozen=True)
+class Screening:
+    """Everything ``screen`` found; ``to_json`` gives the scripts' shape."""
+
+    scales: dict[str, ScaleResult]
+    variables: dict[str, Descriptives]
+    kappas: dict[str, Kappa] = field(default_factory=dict)
+    sensitivity: pd.DataFrame | None = None
+    scores: pd.DataFrame | None = None
+
+    def to_dict(self) -> dict:
+        """A JSON-ready dict: ``{"scales": {...}, "variables": {...}}``; NaN becomes None."""
+        scales = {}
+        for name, s in self.scales.items():
+            scales[name] = {
+                "alpha": s.alpha.alpha,
+                "n": s.alpha.n_used,
+                "k": s.alpha.k,
+                "items": [
+                    {
+                        "name": r.item,
+                        "alpha_if_deleted": r.alpha_if_deleted,
+                        "item_total_r": r.item_total_r,
+                        "negative": bool(r.negative),
+                    }
+                    for r in s.item_table.itertuples()
+                ],
+                "split_half_r": s.split.r_halves,
+                "spearman_brown": s.split.spearman_brown,
+                "score": s.method,
+                "min_answered": s.min_answered,
+                "prorated": s.prorated,
+                "too_few_answered": s.too_few,
+                "scores": _desc_dict(s.score),
+            }
+        variables = {}
+        for name, d in self.variables.items():
+            out = _desc_dict(d)
+            if name in self.kappas:
+                k = self.kappas[name]
+                out["kappa"] = {"kappa": k.kappa, "agreement": k.agreement, "n": k.n}
+            if self.sensitivity is not None and name in set(self.sensitivity["name"]):
+                row = self.sensitivity.set_index("name").loc[name]
+                out["with_set_aside"] = {s: row[f"{s}_all"] for s in ("n", "mean", "sd", "median")}
+            variables[name] = out
+        return _jsonable({"scales": scales, "variables": variables})
+
+    def to_json(self) -> str:
+        """:meth:`to_dict` as one JSON object (strict JSON: NaN written as null)."""
+        return json.dumps(self.to_dict(), ensure_ascii=False, allow_nan=False)
+
+
+def _desc_dict(d: Descriptives) -> dict:
+    out = {
+        "n": d.n,
+        "blank": d.blank,
+        "missing": dict(d.missing),
+        "mean": d.mean,
+        "sd": d.sd,
+        "median": d.median,
+        "min": d.min,
+        "max": d.max,
+        "skewness": d.skewness,
+        "kurtosis": d.kurtosis,
+        "tukey_fences": [d.fences.low, d.fences.high],
+        "outliers_z": list(d.outliers_z),
+        "outliers_tukey": list(d.outliers_tukey),
+    }
+    if d.frequencies is not None:
+        out["frequencies"] = d.frequencies.to_dict(orient="records")
+    return out
+
+
+def _jsonable(obj):
+    if isinstance(obj, dict):
+        return {str(k): _jsonable(v) for k, v in obj.items()}
+    if isinstance(obj, list | tuple):
+        return [_jsonable(v) for v in obj]
+    if isinstance(obj, bool | np.bool_):
+        return bool(obj)
+    if isinstance(obj, int | np.integer):
+        return int(obj)
+    if isinstance(obj, float | np.floating):
+        return None if math.isnan(obj) or math.isinf(obj) else float(obj)
+    if obj is pd.NA or obj is None:
+        return None
+    return obj
+
+
+def screen(
+    data: pd.DataFrame,
+    codebook: Codebook,
+    data_all: pd.DataFrame | None = None,
+    kappa_pairs: dict[str, tuple[pd.Series, pd.Series]] | None = None,
+    z_threshold: float = Z_THRESHOLD,
+) -> Screening:
+    """Screen a verified table: every scale and every variable (not the ID or identifying ones).
+
+    ``data_all`` (the table with set-aside participants still in) adds the
+    sensitivity table; ``kappa_pairs`` (variable -> the two passes' values,
+    see :func:`kappa_pairs_from_passes`) adds Cohen's kappa per variable.
+
+    >>> from core.codebook import Codebook, Variable
+    >>> cb = Codebook((Variable("id", is_id=True), Variable("x", "number")))
+    >>> screen(pd.DataFrame({"id": ["a", "b"], "x": [1.0, 3.0]}), cb).variables["x"].mean
+    2.0
+    """
+    who = _participants(data, codebook)
+    scored = scale_scores(data, codebook)
+    scales = {}
+    for name, items in codebook.scales.items():
+        table = scored.items[name]
+        score_var = Variable(name, "number")
+        scales[name] = ScaleResult(
+            name,
+            [v.name for v in items],
+            cronbach_alpha(table),
+            item_analysis(table),
+            split_half(table),
+            scored.method[name],
+            scored.min_answered[name],
+            scored.prorated[name],
+            scored.too_few[name],
+            describe(scored.scores[name], score_var, who, z_threshold),
+        )
+    variables = {
+        v.name: describe(data[v.name], v, who, z_threshold)
+        for v in codebook
+        if not v.is_id and not v.identifying and v.name in data
+    }
+    kappas = {name: cohen_kappa(a, b) for name, (a, b) in (kappa_pairs or {}).items()}
+    sens = sensitivity(data_all, data, codebook) if data_all is not None else None
+    return Screening(scales, variables, kappas, sens, scored.scores)
