@@ -133,18 +133,7 @@ def compare_study(study, progress: Progress | None = None) -> pd.DataFrame:
     ``study`` is a :class:`core.store.Study`; see :func:`compare_passes` for
     the table. Example: ``compare_study(Study.open("s.sqlite", readonly=True))``.
     """
-    passes = []
-    for pass_no in (1, 2):
-        try:
-            passes.append(study.load_pass(pass_no, include_dropped=False))
-        except TypeError:  # a store without the keyword: filter here
-            p = study.load_pass(pass_no)
-            forms = study.forms(pass_no)
-            dropped = set(forms.loc[forms["dropped"].astype(bool), "form_id"])
-            keep = ~p.text.index.isin(dropped)
-            passes.append(PassData(p.pass_no, p.text[keep], p.state[keep],
-                                   p.keyer[p.keyer.index.isin(p.text.index[keep])],
-                                   p.label[p.label.index.isin(p.text.index[keep])]))
+    passes = [study.load_pass(n, include_dropped=False) for n in (1, 2)]
     return compare_passes(study.codebook, passes[0], passes[1], progress)
 
 
