@@ -103,8 +103,11 @@ class Variable:
 
     With ``"sum"``, a score with some items unanswered is prorated (the mean
     of the answered items times the number of items)."""
-    row: int | None = None
-    """Row of the variable in its source file (header is row 1), for messages; None if unknown."""
+    row: int | None = field(default=None, compare=False)
+    """Row of the variable in its source file (header is row 1), for messages; None if unknown.
+
+    Not part of the variable's identity: the same codebook read from CSV and
+    from Table Schema compares equal."""
 
     @property
     def code_values(self) -> tuple[str, ...]:
