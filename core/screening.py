@@ -328,10 +328,11 @@ def kappa_pairs_from_passes(
     >>> [s.tolist() for s in kappa_pairs_from_passes(cb, p1, p2)["q"]]
     [['1', '2'], ['1', '2']]
     """
-    id_name = codebook.id_variable.name
+    id_var = codebook.id_variable
 
     def by_id(p: PassData) -> tuple[pd.DataFrame, pd.DataFrame]:
-        ids = p.text[id_name].astype("string").str.strip()
+        # Canonical IDs, so "007" in one pass pairs with "7" in the other.
+        ids = canonical_series(id_var, p.text[id_var.name].astype(object))[0].astype("string")
         once = ~ids.duplicated(keep=False) & ids.notna() & (ids != "")
         return p.text[once].set_index(ids[once]), p.state[once].set_index(ids[once])
 
@@ -347,7 +348,9 @@ def kappa_pairs_from_passes(
             col = text.loc[common, var.name].where(state.loc[common, var.name] == KEYED)
             canon, valid = canonical_series(var, col.astype(object))
             missing = set(canonical_series(var, pd.Series(var.missing_values, dtype=object))[0])
-            sides.append(canon.where(valid & ~canon.isin(missing)).astype("string").reset_index(drop=True))
+            sides.append(
+                canon.where(valid & ~canon.isin(missing)).astype("string").reset_index(drop=True)
+            )
         out[var.name] = (sides[0], sides[1])
     return out
 
@@ -533,7 +536,9 @@ def text_histogram(
     if var is not None and var.codes:
         values = numeric_values(x, var)[0] if var.type in NUMERIC else _text_values(x, var)[0]
         table = _frequencies(values.dropna(), var, int(values.notna().sum()))
-        labels = [f"{v} {lab}".strip() for v, lab in zip(table["value"], table["label"], strict=True)]
+        labels = [
+            f"{v} {lab}".strip() for v, lab in zip(table["value"], table["label"], strict=True)
+        ]
         counts = [int(c) for c in table["count"]]
     else:
         values = numeric_values(x, var)[0] if var is not None else pd.Series(x, dtype="float64")
@@ -558,7 +563,9 @@ def _num(v: float) -> str:
 # ---------------------------------------------------------------- sensitivity
 
 
-def sensitivity(data_all: pd.DataFrame, data_kept: pd.DataFrame, codebook: Codebook) -> pd.DataFrame:
+def sensitivity(
+    data_all: pd.DataFrame, data_kept: pd.DataFrame, codebook: Codebook
+) -> pd.DataFrame:
     """The same descriptives with and without set-aside participants, side by side.
 
     One row per numeric variable and per scale score: ``name``, then ``n``,
@@ -571,7 +578,9 @@ def sensitivity(data_all: pd.DataFrame, data_kept: pd.DataFrame, codebook: Codeb
     >>> sensitivity(every, every.iloc[:2], cb)[["name", "mean_all", "mean_kept"]].values.tolist()
     [['x', 11.0, 1.5]]
     """
-    columns = ["name"] + [f"{s}_{w}" for s in ("n", "mean", "sd", "median") for w in ("all", "kept")]
+    columns = ["name"] + [
+        f"{s}_{w}" for s in ("n", "mean", "sd", "median") for w in ("all", "kept")
+    ]
     frames = {"all": data_all, "kept": data_kept}
     stats = {w: _numeric_table(d, codebook) for w, d in frames.items()}
     rows = []
@@ -632,7 +641,9 @@ class ZRule:
         """
         var = _variable(codebook, self.variable)
         if var.type not in NUMERIC:
-            raise UsageError(f"rule {self.name}: {var.name} is not a number — pick a numeric variable.")
+            raise UsageError(
+                f"rule {self.name}: {var.name} is not a number — pick a numeric variable."
+            )
         x, _ = numeric_values(data[var.name], var)
         hit = (z_scores(x).abs() > self.threshold).fillna(False)
         return _participants(data, codebook)[hit].tolist()
@@ -670,7 +681,9 @@ class BlankItemsRule:
         """
         items = codebook.scales.get(self.scale)
         if not items:
-            raise UsageError(f"rule {self.name}: the codebook has no scale {self.scale!r} — check the name.")
+            raise UsageError(
+                f"rule {self.name}: the codebook has no scale {self.scale!r} — check the name."
+            )
         blank = sum(numeric_values(data[v.name], v)[0].isna().astype(int) for v in items)
         return _participants(data, codebook)[blank > self.k].tolist()
 
@@ -733,6 +746,48 @@ class Screening:
     sensitivity: pd.DataFrame | None = None
     scores: pd.DataFrame | None = None
 
+    def tables(self) -> dict[str, pd.DataFrame]:
+        """The results as plain tables, for printing, CSV/Markdown files and the app.
+
+        ``summary``: one row per scale score and variable (kind, name, n, blank,
+        missing, mean, sd, median, min, max, skewness, kurtosis, outliers by
+        |z| and Tukey, alpha, alpha_n, k, spearman_brown, prorated, too_few,
+        kappa, agreement, kappa_n); ``items``: item analysis of every scale;
+        ``frequencies``: coded variables' counts with labels; ``sensitivity``
+        (empty without set-aside participants).
+        """
+        rows = []
+        for name, s in self.scales.items():
+            row = {"kind": "scale", "name": name, **_desc_row(s.score)}
+            row.update(alpha=s.alpha.alpha, alpha_n=s.alpha.n_used, k=s.alpha.k,
+                       spearman_brown=s.split.spearman_brown, score=s.method,
+                       prorated=s.prorated, too_few=s.too_few)  # fmt: skip
+            rows.append(row)
+        for name, d in self.variables.items():
+            row = {"kind": "variable", "name": name, **_desc_row(d)}
+            if name in self.kappas:
+                k = self.kappas[name]
+                row.update(kappa=k.kappa, agreement=k.agreement, kappa_n=k.n)
+            rows.append(row)
+        summary = pd.DataFrame(rows, columns=SUMMARY_COLUMNS)
+        for name in ("alpha_n", "k", "prorated", "too_few", "kappa_n"):
+            summary[name] = summary[name].astype("Int64")
+        items = [
+            s.item_table.assign(scale=name)[["scale", *s.item_table.columns]]
+            for name, s in self.scales.items()
+        ]
+        freqs = [
+            d.frequencies.assign(variable=name)[["variable", *d.frequencies.columns]]
+            for name, d in self.variables.items()
+            if d.frequencies is not None
+        ]
+        return {
+            "summary": summary,
+            "items": pd.concat(items, ignore_index=True) if items else pd.DataFrame(),
+            "frequencies": pd.concat(freqs, ignore_index=True) if freqs else pd.DataFrame(),
+            "sensitivity": self.sensitivity if self.sensitivity is not None else pd.DataFrame(),
+        }
+
     def to_dict(self) -> dict:
         """A JSON-ready dict: ``{"scales": {...}, "variables": {...}}``; NaN becomes None."""
         scales = {}
@@ -773,6 +828,30 @@ class Screening:
     def to_json(self) -> str:
         """:meth:`to_dict` as one JSON object (strict JSON: NaN written as null)."""
         return json.dumps(self.to_dict(), ensure_ascii=False, allow_nan=False)
+
+
+SUMMARY_COLUMNS = [
+    "kind", "name", "n", "blank", "missing", "mean", "sd", "median", "min", "max",
+    "skewness", "kurtosis", "outliers_z", "outliers_tukey", "alpha", "alpha_n", "k",
+    "spearman_brown", "score", "prorated", "too_few", "kappa", "agreement", "kappa_n",
+]  # fmt: skip
+
+
+def _desc_row(d: Descriptives) -> dict:
+    return {
+        "n": d.n,
+        "blank": d.blank,
+        "missing": sum(d.missing.values()),
+        "mean": d.mean,
+        "sd": d.sd,
+        "median": d.median,
+        "min": d.min,
+        "max": d.max,
+        "skewness": d.skewness,
+        "kurtosis": d.kurtosis,
+        "outliers_z": " ".join(d.outliers_z),
+        "outliers_tukey": " ".join(d.outliers_tukey),
+    }
 
 
 def _desc_dict(d: Descriptives) -> dict:

@@ -166,9 +166,14 @@ def test_kappa_matches_scikit_learn_and_skips_missing_pairs():
 def test_kappa_pairs_from_passes_pairs_by_id_and_drops_missing_codes():
     q = Variable("q", "integer", codes=(Code("1", "no"), Code("2", "yes")), missing=(Code("9"),))
     cb = Codebook((Variable("id", is_id=True), q))
-    p1 = PassData.from_texts(1, pd.DataFrame({"id": ["a", "b", "c", "d"], "q": ["1", "2", "9", "2"]}))
-    p2 = PassData.from_texts(2, pd.DataFrame({"id": ["d", "c", "a", "b"], "q": ["1", "2", "01", ""]}))
+    p1 = PassData.from_texts(
+        1, pd.DataFrame({"id": ["a", "b", "c", "d"], "q": ["1", "2", "9", "2"]})
+    )
+    p2 = PassData.from_texts(
+        2, pd.DataFrame({"id": ["d", "c", "a", "b"], "q": ["1", "2", "01", ""]})
+    )
     a, b = kappa_pairs_from_passes(cb, p1, p2)["q"]
+
     def plain(s):
         return [None if pd.isna(v) else v for v in s]
 
@@ -227,7 +232,9 @@ def test_z_outliers_use_threshold_3_29():
 
 
 def test_frequencies_carry_labels_and_exclude_missing_codes():
-    var = Variable("pet", "integer", codes=(Code("1", "none"), Code("2", "cat")), missing=(Code("9"),))
+    var = Variable(
+        "pet", "integer", codes=(Code("1", "none"), Code("2", "cat")), missing=(Code("9"),)
+    )
     d = describe(pd.Series([1, 2, 2, 9, None], dtype="Int64"), var)
     table = d.frequencies
     assert table[["value", "label", "count"]].values.tolist() == [["1", "none", 1], ["2", "cat", 2]]
@@ -297,7 +304,9 @@ def test_declared_missing_code_is_not_an_answer():
 
 
 def test_reverse_item_without_bounds_is_a_codebook_error():
-    cb = Codebook((Variable("id", is_id=True), Variable("r", "integer", scale="R", reverse=True, row=4)))
+    cb = Codebook(
+        (Variable("id", is_id=True), Variable("r", "integer", scale="R", reverse=True, row=4))
+    )
     with pytest.raises(CodebookError, match=r"codebook row 4.*add them"):
         scale_scores(pd.DataFrame({"id": ["p"], "r": [1]}), cb)
 
