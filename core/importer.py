@@ -106,8 +106,14 @@ def read_keyed_file(
     else:
         header, rows, row_numbers, notes = _read_csv(path, encoding)
         letters = None
-    order = _check_columns(path.name, header, codebook, letters)
     frame = pd.DataFrame(rows, columns=range(len(header)), dtype=object)
+    # Spreadsheets often save a trailing separator: a nameless, empty column.
+    unnamed = {i for i, h in enumerate(header)
+               if not h and (frame[i].fillna("").str.strip() == "").all()}
+    if unnamed:
+        notes.append(f"{path.name}: {len(unnamed)} empty column{'s' if len(unnamed) != 1 else ''}"
+                     " without a name ignored.")
+    order = _check_columns(path.name, header, codebook, letters, unnamed)
     frame.index = pd.Index(row_numbers, name="row", dtype="int64")
     texts = frame[order].fillna("")
     texts.columns = codebook.names
@@ -321,6 +327,14 @@ def _read_xlsx(path: Path, codebook: Codebook):
             f"formulas ({_cells_text(formula_cells)}); their saved results were read."
         )
 
+    for r, values in enumerate(grid[1:], start=2):
+        beyond = [i for i, v in enumerate(values[width:], start=width)
+                  if v is not None and str(v).strip()]
+        if beyond:
+            raise ImportFileError(
+                f"{name} cell {get_column_letter(beyond[0] + 1)}{r}: a value in a column with "
+                "no name in row 1 — name the column or clear the cell."
+            )
     var_of_column = {i: codebook[h] for i, h in enumerate(header) if h in codebook}
     rows, numbers, skipped = [], [], []
     for r, values in enumerate(grid[1:], start=2):
@@ -386,7 +400,7 @@ def _cell_text(value, var) -> str:
 
 
 def _check_columns(name: str, header: list[str], codebook: Codebook,
-                   letters: list[str] | None) -> list[int]:
+                   letters: list[str] | None, ignore: set[int] = frozenset()) -> list[int]:
     """Positions of the codebook's variables in ``header``, or one located error."""
     from rapidfuzz import fuzz, process
 
@@ -396,6 +410,8 @@ def _check_columns(name: str, header: list[str], codebook: Codebook,
     problems: list[str] = []
     seen: dict[str, int] = {}
     for i, h in enumerate(header):
+        if i in ignore:
+            continue
         if h in seen:
             problems.append(
                 f'{name} row 1, {where(i)} ("{h}"): the column name appears twice '
@@ -404,7 +420,7 @@ def _check_columns(name: str, header: list[str], codebook: Codebook,
         seen.setdefault(h, i)
     missing = [v for v in codebook.names if v not in seen]
     for i, h in enumerate(header):
-        if h in codebook:
+        if h in codebook or i in ignore:
             continue
         if not h:
             problems.append(

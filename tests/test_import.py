@@ -320,3 +320,25 @@ def test_read_pass_file_labels_forms_by_spreadsheet_row(tmp_path):
     assert p.state.loc[3, "joined"] == "blank" and p.state.loc[3, "age"] == "keyed"
     assert p.text.loc[3, "age"] == "07"
     assert p.keyer.tolist() == ["AB", "AB"]
+
+
+def test_trailing_empty_unnamed_column_is_ignored_but_a_named_gap_is_not(tmp_path):
+    text = "pid,age,joined,born,town,plot,\n101,34,,,,1,\n"
+    texts, notes = read_keyed_file(write(tmp_path, "t.csv", text), CB)
+    assert texts.loc[2, "plot"] == "1"
+    assert any("1 empty column without a name ignored" in n for n in notes)
+    text = "pid,age,joined,born,town,plot,\n101,34,,,,1,oops\n"
+    with pytest.raises(ImportFileError, match=r"t2.csv row 1, column 7: the column has no name"):
+        read_keyed_file(write(tmp_path, "t2.csv", text), CB)
+
+
+def test_xlsx_value_beyond_the_named_columns_is_refused(tmp_path):
+    wb, ws = workbook([[101, 34, None, None, "Basel", 1, None, "stray"]])
+    path = tmp_path / "w.xlsx"
+    wb.save(path)
+    with pytest.raises(ImportFileError) as err:
+        read_keyed_file(path, CB)
+    assert str(err.value) == (
+        "w.xlsx cell H2: a value in a column with no name in row 1 — name the column or "
+        "clear the cell."
+    )
