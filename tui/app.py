@@ -55,7 +55,8 @@ class KeyproofApp(App):
         """Key pass ``pass_no`` as ``keyer``."""
         from .screens.keying import KeyingScreen
 
-        self.push_screen(KeyingScreen(self.study, pass_no, keyer))
+        self.push_screen(KeyingScreen(self.study, pass_no, keyer,
+                                      can_leave=self.start_mode == "home"))
 
     def ask_keyer_then_key(self, pass_no: int) -> None:
         """Ask the keyer's initials, then open the keying screen."""

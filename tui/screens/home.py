@@ -110,31 +110,31 @@ def progress_text(study) -> str:
 
 
 def discrepancy_text(study_path) -> str:
-    """Open discrepancies by kind, from a comparison on a read-only connection.
+    """Discrepancies by kind (``core.compare.summarise``) and how many are still open.
 
-    Runs in a worker thread, so it opens its own connection.
+    Runs in a worker thread, so it opens its own read-only connection.
     """
-    try:
-        from core.compare import compare_study, summarise
-    except ImportError:
-        return "the comparison is not available in this version."
+    from core.compare import compare_study, summarise
     from core.errors import KeyproofError
     from core.store import Study
 
     try:
         with Study.open(study_path, readonly=True) as study:
             table = compare_study(study)
-            summary = summarise(table, _fields_compared(study))
+            summary = summarise(table)
+            still_open = _still_open(study, table)
     except KeyproofError as exc:
         return f"could not count: {exc}"
-    if not len(table):
-        return "none: the two passes agree and break no codebook rule."
-    lines = getattr(summary, "lines", None)
-    return "\n".join(lines()) if callable(lines) else f"{len(table)} to look at"
+    lines = summary.lines()
+    if still_open is not None and len(table):
+        lines.insert(0, f"{still_open} of {len(table)} still open (not yet decided, or stale)")
+    return "\n".join(lines)
 
 
-def _fields_compared(study) -> int:
-    forms = study.forms()
-    live = forms[~forms["dropped"]] if len(forms) else forms
-    paired = min((live["pass"] == 1).sum(), (live["pass"] == 2).sum()) if len(live) else 0
-    return int(paired) * len(study.codebook)
+def _still_open(study, table) -> int | None:
+    try:
+        from core.resolution import join_decisions
+    except ImportError:  # decisions not part of this build: every row counts as open
+        return None
+    rows = join_decisions(table, study.decisions())
+    return int((rows["_status"] != "settled").sum())

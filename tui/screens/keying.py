@@ -36,9 +36,11 @@ class KeyingScreen(Screen):
         Binding("f6", "toggle_auto_advance", "auto-advance", id="keying.auto-advance"),
     ]
 
-    def __init__(self, study, pass_no: int, keyer: str, **kwargs):
+    def __init__(self, study, pass_no: int, keyer: str, *, can_leave: bool = False, **kwargs):
         super().__init__(**kwargs)
         self.model = KeyingModel(study, pass_no, keyer)
+        self.can_leave = can_leave
+        """True when opened from home: Esc at the participant-ID prompt goes back there."""
         self._flags: dict[int, str] = {}
         self._shown: tuple[str, int | None, int | None] | None = None
 
@@ -125,6 +127,9 @@ class KeyingScreen(Screen):
                          "Type its participant ID to go on with it.")
         elif m.mode == CHOOSE_MODE:
             m.cancel()
+        elif self.can_leave:
+            self.dismiss()
+            return
         self._sync(reload=True)
 
     def action_toggle_auto_advance(self) -> None:
