@@ -282,12 +282,14 @@ def test_xlsx_merged_cells_and_hidden_rows_are_reported(tmp_path):
     ])
     ws.merge_cells("B2:B3")
     ws.row_dimensions[4].hidden = True
+    ws.column_dimensions["E"].hidden = True
     path = tmp_path / "m.xlsx"
     wb.save(path)
     texts, notes = read_keyed_file(path, CB)
     assert texts["age"].tolist() == ["34", "", "50"]
     assert any("merged cells B2:B3" in n for n in notes)
     assert any("hidden row 4 were imported" in n for n in notes)
+    assert any("hidden columns E were read" in n for n in notes)
 
 
 def test_xlsx_near_miss_column_names_the_letter(tmp_path):
