@@ -170,7 +170,9 @@ def _read_csv(path: Path) -> list[tuple[int, list[str]]]:
     # The header names hold no delimiters; the cells below may (codes use ";").
     delimiter = max([",", ";", "\t"], key=first.count)
     try:
-        records = list(csv.reader(io.StringIO(text, newline=""), delimiter=delimiter))
+        # skipinitialspace: `a, "b, c"` is two cells, as a person writing it means.
+        records = list(csv.reader(io.StringIO(text, newline=""), delimiter=delimiter,
+                                  skipinitialspace=True))
     except csv.Error as exc:
         raise CodebookError(f"{path.name}: cannot be read as CSV ({exc}) — check for an "
                             "unclosed quote.") from None

@@ -26,6 +26,7 @@ from datetime import datetime
 
 import pandas as pd
 from rapidfuzz import fuzz, process
+from rapidfuzz.distance import DamerauLevenshtein
 
 from .codebook import COLUMNS, DEFAULT_MIN_ANSWERED, SCORE_METHODS, TYPES, Code, Codebook, Variable
 from .conditions import KEYWORDS, parse_condition
@@ -52,13 +53,25 @@ class RawRow:
     """Column -> cell text ("" when empty); ``codes``/``missing`` may already be tuples of Code."""
 
 
-def nearest(word: str, choices, cutoff: float = 60) -> str | None:
-    """The closest of ``choices`` to ``word`` (rapidfuzz ratio), or None if none is close.
+def nearest(word: str, choices, cutoff: float = 0.65) -> str | None:
+    """The closest of ``choices`` to ``word``, or None if none is close enough.
+
+    Closeness is the normalised Damerau-Levenshtein similarity (a swap of two
+    neighbouring letters counts as one slip, as in ``lable``), 0-1.
 
     >>> nearest("lable", ["name", "label", "type"])
     'label'
+    >>> nearest("notes", ["name", "label", "codes"]) is None
+    True
     """
-    hit = process.extractOne(word.lower(), list(choices), scorer=fuzz.ratio, score_cutoff=cutoff)
+    hit = process.extractOne(word.lower(), list(choices), score_cutoff=cutoff,
+                             scorer=DamerauLevenshtein.normalized_similarity)
+    return hit[0] if hit else None
+
+
+def _nearest_type(word: str) -> str | None:
+    # Types are often abbreviated ("int", "num"), which edit distance scores poorly.
+    hit = process.extractOne(word.lower(), TYPES, scorer=fuzz.ratio, score_cutoff=50)
     return hit[0] if hit else None
 
 
@@ -137,34 +150,40 @@ def _variable(check: _Checker, raw: RawRow) -> Variable | None:
         check.add(raw, name, f'"{name}" is a word conditions use', "choose another name")
 
     type_ = _text(raw, "type").lower()
+    known = type_ in TYPES
     if not type_:
         check.add(raw, name, "the type is blank", f"write one of {', '.join(TYPES)}")
         type_ = "string"
-    elif type_ not in TYPES:
-        guess = nearest(type_, TYPES, cutoff=50)
+    elif not known:
+        guess = _nearest_type(type_)
         hint = f'did you mean "{guess}"? Write' if guess else "write"
         check.add(raw, name, f'unknown type "{type_}"', f"{hint} one of {', '.join(TYPES)}")
         type_ = "string"
 
     flags = {col: _flag(check, raw, name, col) for col in ("id", "required", "identifying", "reverse")}
-    low = _bound(check, raw, name, type_, "min")
-    high = _bound(check, raw, name, type_, "max")
+    # With an unknown type, checks that depend on the type would only add noise.
+    bounds_type = type_ if known else "number"
+    before_bounds = len(check.problems)
+    low = _bound(check, raw, name, bounds_type, "min")
+    high = _bound(check, raw, name, bounds_type, "max")
+    bounds_ok = len(check.problems) == before_bounds
     if low is not None and high is not None and low > high:
         check.add(raw, name, f"min {_num(low)} is greater than max {_num(high)}", "swap them or fix the typo")
     fmt = _format(check, raw, name, type_)
     probe = Variable(name or "x", type_, format=fmt)
     codes = _codes(check, raw, name, probe, "codes")
     missing = _codes(check, raw, name, probe, "missing")
-    _check_code_rules(check, raw, name, probe, codes, missing, low, high)
+    if known and bounds_ok:
+        _check_code_rules(check, raw, name, probe, codes, missing, low, high)
     width = _width(check, raw, name)
     scale = _text(raw, "scale")
     if flags["reverse"] and not scale:
         check.add(raw, name, "reverse is yes but the variable has no scale",
                   "name its scale in the scale column, or set reverse to no")
-    if flags["reverse"] and (low is None or high is None):
+    if flags["reverse"] and bounds_ok and (low is None or high is None):
         check.add(raw, name, "a reverse-keyed item needs min and max (scored as min + max − x)",
                   "fill in min and max")
-    if scale and type_ not in ("integer", "number"):
+    if scale and known and type_ not in ("integer", "number"):
         check.add(raw, name, f'a {type_} variable cannot be an item of scale "{scale}"',
                   "make it integer or number, or clear its scale")
     if flags["id"] and _text(raw, "applies_if"):
@@ -366,12 +385,12 @@ def _check_conditions(check: _Checker, variables, raws) -> None:
         try:
             cond = parse_condition(var.applies_if)
         except ValueError as exc:
-            check.add(raw, var.name, f'applies_if "{var.applies_if}" cannot be read: {str(exc).rstrip(".")}',
+            check.add(raw, var.name, f'applies_if "{var.applies_if}" cannot be read ({str(exc).rstrip(".")})',
                       "write it like owns_pet = 1 or age >= 18 and smoker in (1, 2)")
             continue
         for ref in cond.names:
             if ref not in position:
-                guess = nearest(ref, [n for n in position if position[n] < i], cutoff=70)
+                guess = nearest(ref, [n for n in position if position[n] < i])
                 hint = f'did you mean "{guess}"? Fix' if guess else "fix"
                 check.add(raw, var.name, f'applies_if names "{ref}", which is not in the codebook',
                           f"{hint} the name (names are case-sensitive)")

@@ -10,7 +10,9 @@ reader of the file treats them as missing), a schema-level ``missingValues``
 and the ``primaryKey`` (the participant ID). What the standard has no word
 for sits under ``keyproof:variable`` (id, identifying, section, scale,
 reverse, applies_if, width, score, min_answered) and ``keyproof:missing``
-(the missing codes' labels); other tools ignore those keys.
+(the missing codes' labels); other tools ignore those keys. A required
+variable with declared missing codes is marked required only there, because
+in Table Schema a missing code reads as null and ``required`` refuses null.
 
 Reading back goes through the same checks as a CSV codebook, so a Table
 Schema from elsewhere gets the same located messages (``schema.json field 3``).
@@ -146,7 +148,11 @@ def _field(var: Variable) -> dict:
     if var.type == "date" and var.format:
         f["format"] = var.format
     constraints: dict = {}
-    if var.required or var.is_id:
+    # In Table Schema a declared missing code reads as null, and a required
+    # field refuses null; ours allows "refused" on a required item. So such a
+    # field keeps its requirement under the keyproof key only.
+    required = var.required or var.is_id
+    if required and not var.missing:
         constraints["required"] = True
     if var.min is not None:
         constraints["minimum"] = int(var.min) if var.type == "integer" else var.min
@@ -167,6 +173,8 @@ def _field(var: Variable) -> dict:
     ext: dict = {}
     if var.is_id:
         ext["id"] = True
+    if required and var.missing:
+        ext["required"] = True
     for name in _FLAGS:
         if getattr(var, name):
             ext[name] = True
@@ -205,7 +213,7 @@ def _cells(f: dict, key: list, shared_missing: list[str]) -> dict:
         "label": _text(f.get("title")),
         "type": _text(f.get("type", "string")),
         "id": "yes" if f.get("name") in key or ext.get("id") else "no",
-        "required": _text(bool(constraints.get("required", False))),
+        "required": _text(bool(constraints.get("required", False) or ext.get("required", False))),
         "min": _text(constraints.get("minimum")),
         "max": _text(constraints.get("maximum")),
         "format": "" if fmt in ("", "default", "any", None) else _text(fmt),
