@@ -613,7 +613,7 @@ def _numeric_table(data: pd.DataFrame, codebook: Codebook) -> dict[str, pd.Serie
 
 @dataclass(frozen=True)
 class ZRule:
-    """Set aside everyone whose |z| on ``variable`` is above ``threshold``."""
+    """Set aside everyone whose |z| on ``variable`` (a variable or a scale's score) is above ``threshold``."""
 
     variable: str
     threshold: float = Z_THRESHOLD
@@ -639,12 +639,15 @@ class ZRule:
         >>> ZRule("x", 1.0).catches(pd.DataFrame({"id": ["a", "b", "c"], "x": [1.0, 2, 9]}), cb)
         ['c']
         """
-        var = _variable(codebook, self.variable)
-        if var.type not in NUMERIC:
-            raise UsageError(
-                f"rule {self.name}: {var.name} is not a number — pick a numeric variable."
-            )
-        x, _ = numeric_values(data[var.name], var)
+        if self.variable not in codebook and self.variable in codebook.scales:
+            x = scale_scores(data, codebook).scores[self.variable]
+        else:
+            var = _variable(codebook, self.variable)
+            if var.type not in NUMERIC:
+                raise UsageError(
+                    f"rule {self.name}: {var.name} is not a number — pick a numeric variable."
+                )
+            x, _ = numeric_values(data[var.name], var)
         hit = (z_scores(x).abs() > self.threshold).fillna(False)
         return _participants(data, codebook)[hit].tolist()
 
@@ -713,7 +716,7 @@ def parse_rule(text: str) -> ZRule | BlankItemsRule:
 
 def _variable(codebook: Codebook, name: str) -> Variable:
     if name not in codebook:
-        raise UsageError(f"the codebook has no variable {name!r} — check the name.")
+        raise UsageError(f"the codebook has no variable or scale {name!r} — check the name.")
     return codebook[name]
 
 

@@ -4,12 +4,15 @@ from __future__ import annotations
 
 import json
 import math
+import warnings
 from pathlib import Path
 
 import numpy as np
 import pandas as pd
 import pingouin as pg
 import pytest
+from hypothesis import assume, given, settings
+from hypothesis import strategies as st
 from scipy import stats
 from sklearn.metrics import cohen_kappa_score
 
@@ -394,3 +397,72 @@ def test_screen_json_shape_and_nulls():
     one = screen(data.iloc[:1], cb).to_json()
     assert json.loads(one)["variables"]["age"]["sd"] is None
     assert "NaN" not in one
+
+
+def test_z_rule_on_a_scale_score():
+    cb = study_codebook()
+    data = study_data()
+    data[["a1", "a2", "a3"]] = 3
+    data.loc[3, ["a1", "a3"]] = 4
+    data.loc[5, ["a1", "a2", "a3"]] = [5, 1, 5]
+    # Hand-scored here: mean of a1, (1 + 5 - a2) and a3; then z with pandas (ddof=1).
+    scores = (data["a1"] + (6 - data["a2"]) + data["a3"]).astype(float) / 3
+    z = (scores - scores.mean()) / scores.std(ddof=1)
+    expected = data.loc[z.abs() > 3.29, "id"].tolist()
+    assert expected == ["P05"]
+    assert ZRule("A").catches(data, cb) == expected
+
+
+# ---------------------------------------------------------------- properties
+
+
+@settings(max_examples=25, deadline=None)
+@given(
+    st.lists(
+        st.tuples(*(st.one_of(st.none(), st.integers(1, 5)) for _ in range(4))),
+        min_size=3,
+        max_size=30,
+    )
+)
+def test_alpha_always_matches_pingouin_listwise(rows):
+    # Reference library computed in the same test: pingouin.cronbach_alpha.
+    items = pd.DataFrame(rows, columns=list("abcd"), dtype="float64")
+    complete = items.dropna()
+    result = cronbach_alpha(items)
+    assert result.n_used == len(complete)
+    if len(complete) < 2 or complete.sum(axis=1).var() == 0:
+        assert math.isnan(result.alpha)
+    else:
+        expected, _ = pg.cronbach_alpha(items, nan_policy="listwise")
+        assert result.alpha == pytest.approx(expected, rel=1e-9, abs=1e-9)
+
+
+@settings(max_examples=25, deadline=None)
+@given(st.lists(st.tuples(st.integers(0, 3), st.integers(0, 3)), min_size=1, max_size=40))
+def test_kappa_always_matches_scikit_learn(pairs):
+    # Reference library computed in the same test: sklearn's cohen_kappa_score.
+    a = pd.Series([p[0] for p in pairs])
+    b = pd.Series([p[1] for p in pairs])
+    result = cohen_kappa(a, b)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")  # sklearn warns when chance agreement is 1
+        expected = cohen_kappa_score(a, b)
+    if math.isnan(expected):
+        assert math.isnan(result.kappa)
+    else:
+        assert result.kappa == pytest.approx(expected, abs=1e-12)
+
+
+@settings(max_examples=25, deadline=None)
+@given(st.lists(st.floats(-1e3, 1e3, allow_nan=False), min_size=4, max_size=40))
+def test_moments_and_fences_always_match_scipy_and_numpy(values):
+    x = pd.Series(values)
+    # A (nearly) constant column has no skewness to compare: not drawn.
+    assume(np.ptp(values) > 1e-6)
+    # scipy.stats with bias=False (adjusted G1, G2); numpy's linear percentiles.
+    assert skewness_g1(x) == pytest.approx(stats.skew(values, bias=False), rel=1e-6, abs=1e-6)
+    assert kurtosis_g2(x) == pytest.approx(
+        stats.kurtosis(values, fisher=True, bias=False), rel=1e-6, abs=1e-6
+    )
+    q1, q3 = np.percentile(values, [25, 75])
+    assert (tukey_fences(x).q1, tukey_fences(x).q3) == pytest.approx((q1, q3))

@@ -128,7 +128,7 @@ def test_apply_refuses_while_rule_variables_are_open(study_path, capsys):
     ("extra", "words"),
     [
         (["--rule", "age>3"], "z:VARIABLE"),
-        (["--rule", "z:nope"], "no variable 'nope'"),
+        (["--rule", "z:nope"], "no variable or scale 'nope'"),
         (["--rule", "z:age", "--apply"], "--keyer"),
         (["--out", "screen.txt"], ".csv or .md"),
     ],
