@@ -47,7 +47,7 @@ import pandas as pd
 
 from .codebook import Codebook, Variable
 from .errors import DecisionError, OpenWorkError
-from .values import BLANK, ILLEGIBLE, INVALID_TYPE, KEYED, canonical_series, parse
+from .values import BLANK, ILLEGIBLE, INVALID_TYPE, KEYED, allowed_text, canonical_series, parse
 from .verified import Verified
 
 OPEN = "open"
@@ -625,19 +625,21 @@ def _variable(codebook: Codebook, row) -> Variable:
     return codebook[name]
 
 
-def _check_value(var: Variable, text: str, keep: bool, where: str = "") -> str:
+def _check_value(var: Variable, text: str, keep: bool, where: str = "",
+                 keep_hint: str = "keep it only if the paper really says it") -> str:
     """The store action for ``text`` in ``var``, or DecisionError when it cannot stand."""
     parsed = parse(var, text)
     if parsed.problem == INVALID_TYPE:
         raise DecisionError(
-            f'{where}"{text.strip()}" cannot stand in {var.name}: {parsed.message[:-1]} '
-            "— type the paper's value, blank or a missing code."
+            f'{where}"{text.strip()}" cannot stand in {var.name}, which takes '
+            f"{allowed_text(var)} — write the paper's value, leave it empty for a blank, "
+            "or use a missing code."
         )
     if parsed.problem:
         if not keep:
             raise DecisionError(
                 f'{where}"{text.strip()}" is outside {var.name}\'s rule '
-                f"({parsed.message[:-1]}) — keep it only if the paper really says it."
+                f"({allowed_text(var)}) — {keep_hint}."
             )
         return KEEP
     return VALUE
@@ -752,7 +754,8 @@ def apply_decisions_file(study, path, keyer: str) -> int:
         if value:
             keep = reason.lower().startswith(KEEP_PREFIX)
             try:
-                action = _check_value(codebook[name], value, keep)
+                action = _check_value(codebook[name], value, keep,
+                                      keep_hint=f'start the reason with "{KEEP_PREFIX}" if the paper really shows it')
             except DecisionError as exc:
                 raise bad("value", str(exc)[:-1]) from None
             state = KEYED
@@ -775,8 +778,12 @@ def _read_decisions(path: Path) -> pd.DataFrame:
         if suffix == ".xlsx":
             table = _read_xlsx(path)
         elif suffix in (".csv", ".txt", ".tsv"):
-            table = pd.read_csv(path, dtype=str, keep_default_na=False, sep=None,
-                                engine="python", encoding="utf-8-sig")
+            with path.open(encoding="utf-8-sig") as handle:
+                header = handle.readline()
+            # The header names the columns, so it shows the separator plainly.
+            sep = max((",", ";", "\t"), key=header.count)
+            table = pd.read_csv(path, dtype=str, keep_default_na=False, sep=sep,
+                                encoding="utf-8-sig")
         else:
             raise DecisionError(f"{path.name} is neither .csv nor .xlsx — save it as one of them.")
     except DecisionError:
@@ -825,7 +832,8 @@ def _cell_text(value) -> str:
 # --------------------------------------------------------------------------- verified table
 
 
-def verified_table(study, draft: bool = False, progress: ProgressFn | None = None) -> Verified:
+def verified_table(study, draft: bool = False, progress: ProgressFn | None = None,
+                   rows: pd.DataFrame | None = None) -> Verified:
     """What stands for every participant not set aside, typed per the codebook.
 
     A cell holds the agreed value where both passes agree and nothing is
@@ -836,11 +844,12 @@ def verified_table(study, draft: bool = False, progress: ProgressFn | None = Non
     kind), unless ``draft``: open cells are then NA and listed in
     ``open_cells``, and a participant with an open form-level problem has
     only its ID. ``progress(done, total)`` is called once per variable.
+    ``rows`` is a worklist already computed (:func:`worklist`); None computes it.
 
     >>> verified_table(study).data.head()             # doctest: +SKIP
     """
     codebook = study.codebook
-    rows = worklist(study)
+    rows = worklist(study) if rows is None else rows
     aside = set_aside_list(study)
     aside_ids = set(aside["participant"].astype(str))
     participants = rows["participant"].astype("string").fillna("")
