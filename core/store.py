@@ -39,6 +39,7 @@ import numpy as np
 import pandas as pd
 
 from .codebook import Codebook
+from .codebook_diff import CodebookDiff, diff_codebooks
 from .errors import DecisionError, StoreError
 from .journal import COLUMNS as _JOURNAL_COLUMNS
 from .journal import GENESIS, AuditResult, check_chain, first_difference, replay_values, row_hash
@@ -134,29 +135,6 @@ class FormRecord:
     """Variable -> exact keyed text (``""`` for blank or illegible); absent = not keyed."""
     states: dict[str, str] = field(default_factory=dict)
     """Variable -> ``keyed``, ``blank`` or ``illegible``; absent = not keyed."""
-
-
-@dataclass(frozen=True)
-class CodebookChange:
-    """The outcome of :meth:`Study.update_codebook` (before the codebook module's diff lands)."""
-
-    added: tuple[str, ...]
-    removed: tuple[str, ...]
-    changed: tuple[str, ...]
-    diff: object = None
-    """``core.codebook_io.diff_codebooks(old, new)`` when available, else None."""
-
-    def lines(self) -> list[str]:
-        """Readable lines describing the change."""
-        if self.diff is not None and hasattr(self.diff, "lines"):
-            return list(self.diff.lines())
-        out = [f"+ {n}" for n in self.added] + [f"- {n}" for n in self.removed]
-        out += [f"~ {n}" for n in self.changed]
-        return out or ["no changes"]
-
-    @property
-    def empty(self) -> bool:
-        return not (self.added or self.removed or self.changed)
 
 
 class Study:
@@ -525,7 +503,7 @@ class Study:
             self._journal(cur, who, "setting", old=(old[0] if old else None, None),
                           new=(text, None), detail={"key": key})  # fmt: skip
 
-    def update_codebook(self, new: Codebook, who: str, force: bool = False) -> CodebookChange:
+    def update_codebook(self, new: Codebook, who: str, force: bool = False) -> CodebookDiff:
         """Replace the codebook, refusing to drop (or rename) a variable holding
         keyed data unless ``force``; journaled. Values of a dropped variable
         stay stored, outside the codebook.
@@ -535,11 +513,12 @@ class Study:
         """
         with self.transaction() as cur:
             old = self._fresh_codebook(cur)
-            change = _codebook_change(old, new)
+            change = diff_codebooks(old, new)
             if new.hash == old.hash:
                 return change
             held = []
-            for name in change.removed:
+            # A rename is a drop as far as keyed data goes: its values would lose their column.
+            for name in [n for n in old.names if n not in new]:
                 n = cur.execute(
                     "SELECT COUNT(*) FROM form_values WHERE variable = ?", (name,)
                 ).fetchone()[0]
@@ -559,8 +538,10 @@ class Study:
             )
             self._journal(cur, who, "codebook_update", old=(old.hash, None), new=(new.hash, None),
                           reason="forced" if held else "",
-                          detail={"version": version, "added": change.added,
-                                  "removed": change.removed, "changed": change.changed,
+                          detail={"version": version, "added": list(change.added),
+                                  "removed": list(change.removed),
+                                  "renamed": [list(r) for r in change.renamed],
+                                  "changed": [c.name for c in change.changed],
                                   "forced": [h[0] for h in held]})  # fmt: skip
             self._load_codebook(cur)
             self._rebuild_copies(cur)
@@ -1142,28 +1123,3 @@ def _opt_int(x) -> int | None:
 
 def _source(cb: Codebook) -> str:
     return f" ({cb.source})" if cb.source else ""
-
-
-def _codebook_change(old: Codebook, new: Codebook) -> CodebookChange:
-    old_by = {v.name: v for v in old}
-    new_by = {v.name: v for v in new}
-    diff = None
-    try:
-        from .codebook_io import diff_codebooks  # written by the codebook module's owner
-
-        diff = diff_codebooks(old, new)
-    except ImportError:
-        pass
-    return CodebookChange(
-        added=tuple(n for n in new.names if n not in old_by),
-        removed=tuple(n for n in old.names if n not in new_by),
-        changed=tuple(
-            n for n in new.names
-            if n in old_by and _plain(old_by[n]) != _plain(new_by[n])
-        ),
-        diff=diff,
-    )  # fmt: skip
-
-
-def _plain(var) -> str:
-    return Codebook((var,)).to_json()
