@@ -209,6 +209,8 @@ def export(
 OPEN_COLUMNS = ("participant", "variable", "kind")
 SET_ASIDE_COLUMNS = ("participant", "reason", "rule", "keyer", "at")
 KEPT_COLUMNS = ("participant", "variable", "value", "reason")
+DECISION_COLUMNS = ("decision_id", "at", "keyer", "participant", "variable", "kind", "action",
+                    "pass1", "pass2", "value", "state", "reason")
 
 
 def _stem(path: Path) -> str:
@@ -248,7 +250,7 @@ def _frame(table: pd.DataFrame, columns: tuple[str, ...]) -> pd.DataFrame:
 
 def _safe_decisions(verified: Verified) -> pd.DataFrame:
     """Decisions without the values of identifying variables (they name people)."""
-    table = _frame(verified.decisions, ())
+    table = _frame(verified.decisions, DECISION_COLUMNS)
     hidden = set(verified.codebook.identifying_names) - {verified.codebook.id_variable.name}
     if "variable" in table and hidden:
         rows = table["variable"].isin(hidden)
@@ -434,12 +436,22 @@ def _export_xlsx(verified, data, path, prov, progress) -> Path:
 # --- Data Package -----------------------------------------------------------
 
 
-def table_schema(codebook: Codebook, names: list[str]) -> dict:
+def table_schema(codebook: Codebook, names: list[str], kept: pd.DataFrame | None = None) -> dict:
     """The Table Schema of the analysis file: ``names`` of ``codebook`` in order.
 
-    Uses the codebook module's writer when present; every field with declared
-    missing codes also gets field-level ``missingValues`` spelled the way the
-    CSV writes them, so codes of one variable never blank another's values.
+    Starts from the codebook's own Table Schema (``core.codebook_io``) and
+    makes it describe the verified data rather than the keying rules:
+
+    - every field with declared missing codes gets field-level
+      ``missingValues`` spelled the way the CSV writes them (``-9`` and
+      ``-9.0`` for a number), so codes of one variable never blank another's;
+    - ``required`` is a keying rule (a blank on paper is checked), not a
+      promise that the data has no blanks: the paper may really be blank, so
+      it moves to ``keyproof:variable`` except for the ID;
+    - a value kept outside the rule because the paper says so (``kept``:
+      participant, variable, value) widens that field's minimum, maximum or
+      enum just enough, and is listed under ``keyproof:kept``;
+    - dates are written ISO 8601, so their format is ``default``.
 
     >>> from core.codebook import Code, Codebook, Variable
     >>> cb = Codebook((Variable("pid", is_id=True), Variable("q", "number",
@@ -447,61 +459,57 @@ def table_schema(codebook: Codebook, names: list[str]) -> dict:
     >>> table_schema(cb, ["pid", "q"])["fields"][1]["missingValues"]
     ['', '-9', '-9.0']
     """
-    try:
-        from .codebook_io import to_table_schema
-    except ImportError:
-        schema = _basic_schema(codebook)
-    else:
-        schema = to_table_schema(codebook)
-    fields = {f["name"]: dict(f) for f in schema.get("fields", [])}
-    schema = dict(schema)
-    schema["fields"] = [fields.get(n) or _basic_field(codebook[n]) for n in names]
+    from .codebook_io import to_table_schema
+
+    schema = dict(to_table_schema(codebook))
+    fields = {f["name"]: json.loads(json.dumps(f)) for f in schema.get("fields", [])}
+    schema["fields"] = [fields[n] for n in names]
+    kept = _frame(kept, KEPT_COLUMNS)
     for f in schema["fields"]:
         var = codebook[f["name"]]
+        constraints = f.setdefault("constraints", {})
         if var.missing:
             spelled = list(var.missing_values) + list(
                 canonical_series(var, pd.Series(list(var.missing_values), dtype=object))[0]
             )
             f["missingValues"] = list(dict.fromkeys(["", *spelled]))
+        if var.is_id:
+            constraints["required"] = True
+        elif constraints.pop("required", False):
+            f.setdefault("keyproof:variable", {})["required"] = True
+        if var.type == "date":
+            f["format"] = "default"
+        mine = kept.loc[kept["variable"] == var.name, "value"].dropna().astype(str)
+        if len(mine):
+            _widen(var, constraints, list(mine))
+            f["keyproof:kept"] = [
+                {"participant": str(p), "value": str(v)}
+                for p, v in kept.loc[mine.index, ["participant", "value"]].itertuples(index=False)
+            ]
+        if not constraints:
+            f.pop("constraints")
     id_name = codebook.id_variable.name
-    schema["primaryKey"] = [id_name] if id_name in names else []
-    if not schema["primaryKey"]:
-        schema.pop("primaryKey")
+    if id_name in names:
+        schema["primaryKey"] = [id_name]
+    else:
+        schema.pop("primaryKey", None)
     schema.setdefault("missingValues", [""])
     return schema
 
 
-def _basic_schema(codebook: Codebook) -> dict:
-    return {"fields": [_basic_field(v) for v in codebook], "missingValues": [""]}
-
-
-def _basic_field(var: Variable) -> dict:
-    """A Table Schema field for one variable (types, constraints, categories)."""
-    f: dict = {"name": var.name, "type": var.type}
-    if var.label:
-        f["title"] = var.label
-    if var.type == "date":
-        f["format"] = "default"
-    constraints: dict = {}
-    if var.is_id:
-        constraints.update(required=True, unique=True)
+def _widen(var: Variable, constraints: dict, texts: list[str]) -> None:
+    """Let the values the paper really shows pass their field's constraints."""
+    canon, valid = canonical_series(var, pd.Series(texts, dtype=object))
+    values = [_typed_code(var, c) for c, ok in zip(canon, valid, strict=True) if ok]
+    if not values:
+        return
+    if "enum" in constraints:
+        constraints["enum"] = list(dict.fromkeys([*constraints["enum"], *values]))
     if var.type in ("integer", "number"):
-        cast = int if var.type == "integer" else float
-        if var.min is not None:
-            constraints["minimum"] = cast(var.min)
-        if var.max is not None:
-            constraints["maximum"] = cast(var.max)
-    if var.codes:
-        canon = canonical_series(var, pd.Series(list(var.code_values), dtype=object))[0]
-        values = [_typed_code(var, c) for c in canon]
-        constraints["enum"] = values
-        f["categories"] = [
-            {"value": value, "label": code.label} if code.label else {"value": value}
-            for value, code in zip(values, var.codes, strict=True)
-        ]
-    if constraints:
-        f["constraints"] = constraints
-    return f
+        if "minimum" in constraints:
+            constraints["minimum"] = min([constraints["minimum"], *values])
+        if "maximum" in constraints:
+            constraints["maximum"] = max([constraints["maximum"], *values])
 
 
 def _typed_code(var: Variable, canonical: str):
@@ -519,7 +527,7 @@ def _package_name(path: Path) -> str:
 
 def _export_package(verified, data, path, prov, progress) -> Path:
     names = list(data.columns)
-    schema = table_schema(verified.codebook, names)
+    schema = table_schema(verified.codebook, names, _safe_kept(verified))
     set_aside = _frame(verified.set_aside, SET_ASIDE_COLUMNS)
     decisions = _safe_decisions(verified)
     descriptor = {

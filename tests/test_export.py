@@ -290,3 +290,30 @@ def test_progress_reaches_every_row(tmp_path):
         export(Verified(codebook, data), tmp_path / out, progress=lambda d, t: seen.append((d, t)))
         assert seen[-1] == (rows, rows), out
         assert [d for d, _ in seen] == sorted(d for d, _ in seen)
+
+
+def test_values_the_paper_really_shows_still_validate(tmp_path):
+    # age 150 is outside 18..99 but kept because the paper says so; "required"
+    # is a keying rule, so a blank on paper must not make the package invalid.
+    cb = Codebook((
+        Variable("pid", is_id=True),
+        Variable("age", "integer", min=18, max=99, required=True),
+        Variable("q1", "integer", codes=FREQ),
+    ))
+    data = pd.DataFrame({"pid": ["1", "2", "3"], "age": pd.array([150, None, 40], dtype="Int64"),
+                         "q1": pd.array([1, 2, 4], dtype="Int64")})
+    kept = pd.DataFrame({"participant": ["1", "3"], "variable": ["age", "q1"],
+                         "value": ["150", "4"], "reason": ["paper says: 150"] * 2})
+    result = export(Verified(cb, data, kept=kept), tmp_path / "pkg")
+    # frictionless: the reference implementation of the Data Package standard.
+    report = validate(result.path / "datapackage.json")
+    assert report.valid, report.flatten(["rowNumber", "fieldName", "type", "note"])
+    fields = {f["name"]: f for f in json.loads((result.path / "schema.json").read_text())["fields"]}
+    assert fields["age"]["constraints"]["maximum"] == 150
+    assert fields["age"]["keyproof:kept"] == [{"participant": "1", "value": "150"}]
+    assert 4 in fields["q1"]["constraints"]["enum"]
+    assert fields["pid"]["constraints"]["required"] is True
+    # Without the kept record the same value is refused: the widening is what lets it pass.
+    bare = export(Verified(cb, data.assign(age=pd.array([150, 20, 40], dtype="Int64"))),
+                  tmp_path / "bare")
+    assert not validate(bare.path / "datapackage.json").valid

@@ -1,0 +1,205 @@
+"""End to end on the demo study: refuse while open, then resolve with the paper and export.
+
+The demo's paper truth (fixtures/demo/paper.csv) and its list of planted slips
+(fixtures/demo/slips.csv, written by fixtures/make_demo.py together with the
+keyed passes) are the outside record: the verified file must equal the
+paper, and the report's error attribution must find exactly the planted slips.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import openpyxl
+import pandas as pd
+import pytest
+from frictionless import validate
+
+from core.demo import KEYERS, make_demo_study
+from core.report import build_report
+from core.resolution import (
+    FORM_KINDS,
+    confirm_one_pass,
+    mark_blank,
+    pair_forms,
+    set_missing_code,
+    set_paper_value,
+    settle_shift,
+    take_pass,
+    worklist,
+)
+from core.store import Study
+from core.values import parse
+from tui.cli import main
+
+FIXTURES = Path(__file__).resolve().parents[1] / "fixtures" / "demo"
+RESOLVER = "LM"
+
+
+def _paper() -> pd.DataFrame:
+    return pd.read_csv(FIXTURES / "paper.csv", dtype=str, keep_default_na=False).set_index(
+        "member_id")
+
+
+def _settle_form(study, row, paper) -> None:
+    here = 1 if row["kind"] == "only_in_pass1" else 2
+    other = 3 - here
+    reason = "form number mistyped in one pass"
+    if row["participant"] not in paper.index:  # this side's ID is the mistyped one
+        pair_forms(study, row, other, reason, RESOLVER)
+        return
+    partner = row.get("_partner")
+    if partner is not None and not pd.isna(partner):
+        partner_id = study.form(int(partner)).texts[study.codebook.id_variable.name]
+        if partner_id not in paper.index:
+            pair_forms(study, row, here, reason, RESOLVER)
+            return
+    # A real paper the other pass never keyed: confirm, then key it from the paper.
+    confirm_one_pass(study, row, "paper found, not keyed in the other pass", RESOLVER)
+    keyer = KEYERS[other]
+    form = study.start_form(other, keyer)
+    id_name = study.codebook.id_variable.name
+    study.set_value(form, id_name, row["participant"], "keyed", keyer)
+    for name, text in paper.loc[row["participant"]].items():
+        study.set_value(form, name, text, "keyed" if text else "blank", keyer)
+    study.finish_form(form, keyer)
+
+
+def _settle_cell(study, row, truth: str) -> None:
+    var = study.codebook[row["variable"]]
+    keep = bool(truth) and not parse(var, truth).ok
+    if truth == "":
+        mark_blank(study, row, "paper blank", RESOLVER)
+    elif truth in var.missing_values:
+        set_missing_code(study, row, truth, "paper blank", RESOLVER)
+    elif row["pass1"] == truth:
+        take_pass(study, row, 1, "checked against paper: pass 1 right", RESOLVER, keep=keep)
+    elif row["pass2"] == truth:
+        take_pass(study, row, 2, "checked against paper: pass 2 right", RESOLVER, keep=keep)
+    else:
+        set_paper_value(study, row, truth, "checked against paper: both wrong", RESOLVER,
+                        keep=keep)
+
+
+def _resolve_with_paper(study, paper) -> None:
+    """Settle everything the way a resolver holding the paper would, a form at a time."""
+    for _round in range(20):
+        rows = worklist(study)
+        pending = rows[rows["_status"] != "settled"]
+        if pending.empty:
+            return
+        forms = pending[pending["kind"].isin(FORM_KINDS)]
+        if len(forms):
+            _settle_form(study, forms.iloc[0], paper)
+            continue
+        shifted = set()
+        for _, row in pending.iterrows():
+            p, var = row["participant"], row["variable"]
+            truth = paper.loc[p, var]
+            if row["cause"] == "field_shift":
+                if p not in shifted:
+                    right = 1 if row["pass1"] == truth else 2
+                    settle_shift(study, p, right, f"checked against paper: pass {right} right",
+                                 RESOLVER, rows=rows)
+                    shifted.add(p)
+            else:
+                _settle_cell(study, row, truth)
+    raise AssertionError("the demo study did not settle in twenty rounds")
+
+
+@pytest.fixture(scope="module")
+def demo(tmp_path_factory):
+    """Two copies of the demo study: as keyed (open) and resolved with its paper."""
+    folder = tmp_path_factory.mktemp("demo")
+    open_study = make_demo_study(folder / "open")
+    resolved = make_demo_study(folder / "resolved")
+    with Study.open(resolved) as study:
+        _resolve_with_paper(study, _paper())
+    return open_study, resolved
+
+
+def test_export_refuses_while_anything_is_open(demo, tmp_path, capsys):
+    open_study, _ = demo
+    for out in ("v.csv", "v.xlsx", "pkg"):
+        status = main(["export", str(open_study), "--out", str(tmp_path / out)])
+        err = capsys.readouterr().err
+        assert status == 1
+        assert "open discrepanc" in err and "mismatch" in err  # counts by kind
+        assert list(tmp_path.iterdir()) == []  # nothing written
+
+
+def test_draft_export_of_the_open_study(demo, tmp_path, capsys):
+    open_study, _ = demo
+    assert main(["export", str(open_study), "--out", str(tmp_path / "v.csv"), "--draft"]) == 0
+    assert (tmp_path / "v.DRAFT.csv").exists() and not (tmp_path / "v.csv").exists()
+    open_cells = pd.read_csv(tmp_path / "v.DRAFT.open.csv", dtype=str)
+    assert len(open_cells) > 0 and set(open_cells.columns) == {"participant", "variable", "kind"}
+
+
+def _paper_frame(drop: list[str]) -> pd.DataFrame:
+    # pandas' own CSV type inference on the paper truth is the reference here.
+    paper = pd.read_csv(FIXTURES / "paper.csv")
+    return paper.drop(columns=drop).sort_values("member_id").reset_index(drop=True)
+
+
+def test_resolved_demo_exports_the_paper_in_every_format(demo, tmp_path, capsys):
+    _, resolved = demo
+    ident = tmp_path / "apart" / "who.csv"
+    ident.parent.mkdir()
+    assert main(["export", str(resolved), "--out", str(tmp_path / "v.csv"),
+                 "--identifying", str(ident)]) == 0
+    out = capsys.readouterr().out
+    assert "60 participants" in out and "initials" in out
+    expected = _paper_frame(drop=["initials"])
+    got = pd.read_csv(tmp_path / "v.csv")
+    pd.testing.assert_frame_equal(got, expected, check_dtype=False)
+    who = pd.read_csv(ident)
+    assert list(who.columns) == ["member_id", "initials"]
+    assert main(["export", str(resolved), "--out", str(tmp_path / "v.xlsx")]) == 0
+    from_xlsx = pd.read_excel(tmp_path / "v.xlsx", sheet_name="data")
+    from_xlsx["joined"] = from_xlsx["joined"].dt.strftime("%Y-%m-%d")
+    pd.testing.assert_frame_equal(from_xlsx, got, check_dtype=False)
+    assert "initials" not in next(openpyxl.load_workbook(tmp_path / "v.xlsx", read_only=True)
+                                  ["data"].iter_rows(values_only=True))
+    assert main(["export", str(resolved), "--out", str(tmp_path / "pkg")]) == 0
+    # frictionless: the reference implementation of the Data Package standard.
+    report = validate(tmp_path / "pkg" / "datapackage.json")
+    assert report.valid, report.flatten(["rowNumber", "fieldName", "type", "note"])
+    package = json.loads((tmp_path / "pkg" / "datapackage.json").read_text())
+    with Study.open(resolved, readonly=True) as study:
+        head = study.journal_head()
+    assert package["keyproof:provenance"]["journal_head"] == head
+    assert package["keyproof:provenance"]["study"] == "garden.sqlite"
+
+
+def test_report_finds_exactly_the_planted_slips(demo, tmp_path, capsys):
+    _, resolved = demo
+    with Study.open(resolved, readonly=True) as study:
+        report = build_report(study)
+        variables = len(study.codebook) - 1
+    slips = pd.read_csv(FIXTURES / "slips.csv", dtype=str, keep_default_na=False)
+    # Field slips of one pass (the ID slip is a pairing problem, counted apart).
+    field_slips = slips[slips["pass"].isin(["1", "2"]) & (slips["variable"] != "member_id")
+                        & (slips["kind"] == "mismatch")]
+    planted = field_slips.groupby("pass").size().rename(index=lambda p: KEYERS[int(p)])
+    rates = report.keyer_rates.set_index("keyer")
+    assert rates["errors"].to_dict() == planted.to_dict()
+    assert rates["fields"].to_dict() == {"AB": 60 * variables, "JM": 60 * variables}
+    assert report.status["open"] == 0 and report.status["stale"] == 0
+    kept = slips[slips["kind"] == "out_of_range"]
+    assert report.kept[["participant", "variable"]].values.tolist() == kept[
+        ["participant", "variable"]].values.tolist()
+    assert main(["report", str(resolved), "--out", str(tmp_path / "r.html")]) == 0
+    html = (tmp_path / "r.html").read_text(encoding="utf-8")
+    for keyer, errors in planted.items():
+        assert f"<td>{keyer}</td>" in html and f'<td class="n">{errors}</td>' in html
+    assert main(["report", str(resolved), "--out", str(tmp_path / "r.md")]) == 0
+    assert (tmp_path / "r.md").read_text(encoding="utf-8").startswith("# Verification report")
+
+
+def test_report_command_refuses_an_unknown_format(demo, tmp_path, capsys):
+    open_study, _ = demo
+    assert main(["report", str(open_study), "--out", str(tmp_path / "r.pdf")]) == 2
+    assert "r.pdf: cannot write a report as .pdf — choose a .html or .md file." in (
+        capsys.readouterr().err)
