@@ -402,40 +402,56 @@ def _walk(node):
 # --------------------------------------------------------------------------- vectorised
 
 
+def _kind(col: pd.Series) -> str:
+    """How a column is read: ``datetime``, ``numeric``, ``text`` or (rarely) ``mixed``."""
+    if pd.api.types.is_datetime64_any_dtype(col):
+        return "datetime"
+    if pd.api.types.is_bool_dtype(col):
+        return "mixed"  # True/False are not numbers here; read cell by cell like evaluate_one
+    if pd.api.types.is_numeric_dtype(col):
+        return "numeric"
+    inferred = pd.api.types.infer_dtype(col, skipna=True)
+    return "text" if inferred in ("string", "empty") else "mixed"
+
+
 def _blank_series(col: pd.Series) -> pd.Series:
-    blank = col.isna()
-    if not (pd.api.types.is_numeric_dtype(col) or pd.api.types.is_datetime64_any_dtype(col)):
-        is_text = col.map(lambda v: isinstance(v, str), na_action="ignore").fillna(False).astype(bool)
-        stripped = col.where(is_text).astype(object).str.strip()
-        blank = blank | (is_text & (stripped == ""))
-    return blank.fillna(True).astype(bool)
+    kind = _kind(col)
+    if kind in ("numeric", "datetime"):
+        return col.isna().astype(bool)
+    if kind == "text":
+        stripped = col.astype(object).where(col.notna(), None).str.strip()
+        return (stripped.isna() | (stripped == "")).astype(bool)
+    # Mixed Python objects (a frame built from typed dicts): one call per cell, rare and small.
+    return col.map(_is_blank_one, na_action=None).astype(bool)
 
 
 def _numbers(col: pd.Series) -> pd.Series:
     """The column as float64; NaN where blank or not a number."""
-    if pd.api.types.is_bool_dtype(col) or pd.api.types.is_datetime64_any_dtype(col):
-        return pd.Series(math.nan, index=col.index, dtype="float64")
-    if pd.api.types.is_numeric_dtype(col):
+    kind = _kind(col)
+    if kind == "numeric":
         return col.astype("Float64").astype("float64")
-    # Object columns may mix Python numbers and text (e.g. a typed dict turned frame).
-    out = pd.Series(math.nan, index=col.index, dtype="float64")
-    is_num = col.map(lambda v: isinstance(v, int | float) and not isinstance(v, bool),
-                     na_action="ignore").fillna(False).astype(bool)
-    if is_num.any():
-        out[is_num] = col[is_num].astype("float64")
-    is_text = col.map(lambda v: isinstance(v, str), na_action="ignore").fillna(False).astype(bool)
-    if is_text.any():
-        text = col[is_text].astype(object).str.strip()
+    if kind == "datetime":
+        return pd.Series(math.nan, index=col.index, dtype="float64")
+    if kind == "text":
+        text = col.astype(object).where(col.notna(), None).str.strip()
         ok = text.str.fullmatch(_NUMBER_TEXT.pattern).fillna(False).astype(bool)
-        out[ok[ok].index] = text[ok].str.replace(",", ".", regex=False).astype("float64")
-    return out
+        return pd.to_numeric(text.where(ok).str.replace(",", ".", regex=False),
+                             errors="coerce").astype("float64")
+    return col.map(lambda v: math.nan if (n := _number_one(v)) is None else n).astype("float64")
 
 
 def _texts(col: pd.Series) -> pd.Series:
     """The column as text (object of str, None where blank), as :func:`_text_one` writes it."""
-    if pd.api.types.is_datetime64_any_dtype(col):
-        return col.dt.strftime("%Y-%m-%d").astype(object).where(col.notna(), None)
-    return col.map(_text_one, na_action="ignore").astype(object).where(col.notna(), None)
+    kind = _kind(col)
+    present = col.notna()
+    if kind == "datetime":
+        return col.dt.strftime("%Y-%m-%d").astype(object).where(present, None)
+    if kind == "numeric":
+        # pandas writes floats as Python's str() does (shortest repr), ints without ".0".
+        return col.astype(str).astype(object).where(present, None)
+    if kind == "text":
+        return col.astype(object).where(present, None)
+    return col.map(_text_one, na_action="ignore").astype(object).where(present, None)
 
 
 def _column(frame: pd.DataFrame, name: str, kind: str, cache: dict) -> pd.Series:

@@ -34,6 +34,9 @@ RULES = [
     ("NOT a > 2 AND NOT s IN ('y', 'z')",
      lambda r: not (not blank(r["a"]) and r["a"] > 2) and not (not blank(r["s"]) and r["s"] in ("y", "z"))),
     ("s < 'y'", lambda r: not blank(r["s"]) and r["s"] < "y"),
+    # A quoted literal compares with the field as text, numbers written as Python's str() writes them.
+    ("a = '1' or b = '0.5' or b >= '1'", lambda r: (not blank(r["a"]) and str(r["a"]) == "1")
+     or (not blank(r["b"]) and (str(r["b"]) == "0.5" or str(r["b"]) >= "1"))),
     ("a = 1 or a = 2 and b >= 0", lambda r: (not blank(r["a"]) and r["a"] == 1)
      or ((not blank(r["a"]) and r["a"] == 2) and (not blank(r["b"]) and r["b"] >= 0))),
 ]
@@ -53,10 +56,18 @@ def test_vectorised_and_one_form_agree_with_hand_written_python(data):
         "b": pd.array([r["b"] for r in data], dtype="Float64"),
         "s": pd.Series([r["s"] for r in data], dtype=object),
     })
+    # The same values as canonical keyed text (what the comparison engine passes in).
+    as_text = pd.DataFrame({
+        "a": pd.Series([None if r["a"] is None else str(r["a"]) for r in data], dtype=object),
+        "b": pd.Series([None if r["b"] is None else repr(r["b"]) for r in data], dtype=object),
+        "s": frame["s"],
+    })
     for text, reference in RULES:
         cond = parse_condition(text)
         expected = [bool(reference(r)) for r in data]
         assert cond.evaluate(frame).tolist() == expected, text
+        assert cond.evaluate(as_text).tolist() == expected, text
+        assert cond.evaluate(frame.astype(object)).tolist() == expected, text
         assert [cond.evaluate_one(r) for r in data] == expected, text
 
 
