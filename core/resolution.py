@@ -30,6 +30,11 @@ Statuses in the worklist's ``_status``:
 - ``stale``: a pass value changed after the newest decision; the old decision
   is shown in the ``_decision_*`` columns.
 
+Length: one module on purpose, past the house's ~600 lines: the decision
+kinds, the decisions file and the verified table share one set of checks
+(reason, keyer, a value that may stand), and the resolution screen needs a
+single module to import.
+
 Decisions file (``keyproof decide --from``): columns ``participant, variable,
 value, reason``; an empty value means blank on paper; a declared missing code
 is written as itself. A value outside the variable's range or codes is
@@ -348,11 +353,12 @@ def set_missing_code(study, row, code: str, reason: str, keyer: str) -> int:
 
 
 def settle_shift(study, participant: str, pass_no: int, reason: str, keyer: str,
-                 rows: pd.DataFrame | None = None) -> int:
+                 rows: pd.DataFrame | None = None, keep: bool = False) -> int:
     """Settle every field-shift cell of one form at once: pass ``pass_no`` is right.
 
-    One transaction: all cells or none. ``rows`` is the current worklist
-    (computed when None). Returns how many cells were settled.
+    One transaction: all cells or none (a value outside its rule refuses the
+    whole run unless ``keep``). ``rows`` is the current worklist (computed
+    when None). Returns how many cells were settled.
 
     >>> settle_shift(study, "17", 1, "checked against paper: pass 1 right", "LM")  # doctest: +SKIP
     4
@@ -370,7 +376,7 @@ def settle_shift(study, participant: str, pass_no: int, reason: str, keyer: str,
         )
     with study.transaction():
         for _, row in shift.iterrows():
-            take_pass(study, row, pass_no, reason, keyer, keep=True)
+            take_pass(study, row, pass_no, reason, keyer, keep=keep)
     return len(shift)
 
 
