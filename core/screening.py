@@ -60,14 +60,20 @@ def numeric_values(series: pd.Series, var: Variable) -> tuple[pd.Series, dict[st
     >>> x.isna().tolist(), miss
     ([False, True, True], {'-9': 1})
     """
-    x = pd.to_numeric(series, errors="coerce").astype("float64")
+    if pd.api.types.is_numeric_dtype(series.dtype) and not pd.api.types.is_bool_dtype(series.dtype):
+        values = series.to_numpy(dtype="float64", na_value=np.nan)
+    else:
+        values = pd.to_numeric(series, errors="coerce").to_numpy(dtype="float64", na_value=np.nan)
+    values = values.copy()  # never write into the caller's table
     counts: dict[str, int] = {}
     for code in var.missing_values:
-        value = pd.to_numeric(pd.Series([code]), errors="coerce").iloc[0]
-        hit = x == value
+        try:
+            hit = values == float(code.replace(",", "."))
+        except ValueError:  # a non-numeric missing code cannot appear in a number column
+            hit = np.zeros(len(values), dtype=bool)
         counts[code] = int(hit.sum())
-        x = x.mask(hit)
-    return x, counts
+        values[hit] = np.nan
+    return pd.Series(values, index=series.index, dtype="float64"), counts
 
 
 def _text_values(series: pd.Series, var: Variable) -> tuple[pd.Series, dict[str, int]]:
@@ -217,19 +223,28 @@ def item_analysis(items: pd.DataFrame) -> pd.DataFrame:
     True
     """
     complete = items.astype("float64").dropna()
-    rows = []
-    for name in complete.columns:
-        rest = complete.drop(columns=name)
-        r = _pearson(complete[name], rest.sum(axis=1)) if rest.shape[1] else math.nan
-        rows.append(
-            {
-                "item": name,
-                "alpha_if_deleted": cronbach_alpha(rest).alpha,
-                "item_total_r": r,
-                "negative": bool(r < 0),
-            }
-        )
-    return pd.DataFrame(rows, columns=["item", "alpha_if_deleted", "item_total_r", "negative"])
+    names = list(complete.columns)
+    k, n = len(names), len(complete)
+    alpha_del = np.full(k, np.nan)
+    r = np.full(k, np.nan)
+    if n >= 2 and k >= 2:
+        # One covariance matrix serves every item: the rest's variance is the
+        # total minus the item's row and column, so no per-item refit.
+        cov = np.atleast_2d(np.cov(complete.to_numpy(), rowvar=False, ddof=1))
+        item_var = np.diag(cov)
+        row_sum = cov.sum(axis=1)
+        rest_var = cov.sum() - 2 * row_sum + item_var
+        rest_items_var = item_var.sum() - item_var
+        with np.errstate(divide="ignore", invalid="ignore"):
+            if k >= 3:
+                alpha_del = (k - 1) / (k - 2) * (1 - rest_items_var / rest_var)
+                alpha_del[~(rest_var > 0)] = np.nan
+            r = (row_sum - item_var) / np.sqrt(item_var * rest_var)
+            r[~((item_var > 0) & (rest_var > 0))] = np.nan
+    return pd.DataFrame(
+        {"item": names, "alpha_if_deleted": alpha_del, "item_total_r": r, "negative": r < 0},
+        columns=["item", "alpha_if_deleted", "item_total_r", "negative"],
+    )
 
 
 def _pearson(a: pd.Series, b: pd.Series) -> float:
@@ -483,24 +498,30 @@ def describe(
         blank = int(series.isna().sum())
         return Descriptives(var.name, n, blank, missing, frequencies=_frequencies(s, var, n))
     x, missing = numeric_values(series, var)
-    n, blank = int(x.notna().sum()), int(series.isna().sum())
+    arr = x.to_numpy()
+    v = arr[~np.isnan(arr)]
+    n, blank = len(v), int(series.isna().sum())
     fences = tukey_fences(x, TUKEY_K)
-    z = z_scores(x)
+    mean = float(v.mean()) if n else math.nan
+    sd = float(v.std(ddof=1)) if n > 1 else math.nan
+    with np.errstate(invalid="ignore"):
+        z_hit = np.abs(arr - mean) / sd > z_threshold if sd > 0 else np.zeros(len(arr), bool)
+        fence_hit = (arr < fences.low) | (arr > fences.high)
     return Descriptives(
         var.name,
         n,
         blank,
         missing,
-        mean=float(x.mean()) if n else math.nan,
-        sd=float(x.std(ddof=1)) if n > 1 else math.nan,
-        median=float(x.median()) if n else math.nan,
-        min=float(x.min()) if n else math.nan,
-        max=float(x.max()) if n else math.nan,
-        skewness=skewness_g1(x),
-        kurtosis=kurtosis_g2(x),
+        mean=mean,
+        sd=sd,
+        median=float(np.median(v)) if n else math.nan,
+        min=float(v.min()) if n else math.nan,
+        max=float(v.max()) if n else math.nan,
+        skewness=skewness_g1(v),
+        kurtosis=kurtosis_g2(v),
         fences=fences,
-        outliers_z=tuple(who[(z.abs() > z_threshold).fillna(False)]),
-        outliers_tukey=tuple(who[((x < fences.low) | (x > fences.high)).fillna(False)]),
+        outliers_z=tuple(who[z_hit]),
+        outliers_tukey=tuple(who[fence_hit]),
         frequencies=_frequencies(x, var, n) if var.codes else None,
     )
 
@@ -587,11 +608,12 @@ def sensitivity(
     for name in stats["all"]:
         row = {"name": name}
         for w in ("all", "kept"):
-            x = stats[w].get(name, pd.Series(dtype="float64"))
-            row[f"n_{w}"] = int(x.notna().sum())
-            row[f"mean_{w}"] = float(x.mean()) if x.notna().any() else math.nan
-            row[f"sd_{w}"] = float(x.std(ddof=1)) if x.notna().sum() > 1 else math.nan
-            row[f"median_{w}"] = float(x.median()) if x.notna().any() else math.nan
+            x = stats[w].get(name, pd.Series(dtype="float64")).to_numpy()
+            v = x[~np.isnan(x)]
+            row[f"n_{w}"] = len(v)
+            row[f"mean_{w}"] = float(v.mean()) if len(v) else math.nan
+            row[f"sd_{w}"] = float(v.std(ddof=1)) if len(v) > 1 else math.nan
+            row[f"median_{w}"] = float(np.median(v)) if len(v) else math.nan
         rows.append(row)
     return pd.DataFrame(rows, columns=columns)
 
