@@ -6,10 +6,13 @@ spreadsheets and other people save them.
 """
 
 import json
+from dataclasses import replace
 from pathlib import Path
 
+import hypothesis.strategies as st
 import pytest
 from frictionless import Resource, Schema
+from hypothesis import given, settings
 
 from core.codebook import Code, Codebook, Variable
 from core.codebook_io import (
@@ -139,8 +142,7 @@ def test_bad_codebook_lists_every_located_problem(name):
     assert str(info.value) == (first if not more else f"{first} (and {more} more problem{'s' * (more > 1)})")
 
 
-@pytest.mark.parametrize("name", ["min_greater_than_max.csv", "no_id.csv", "broken.json",
-                                  "merged_across_columns.xlsx"])
+@pytest.mark.parametrize("name", sorted(EXPECTED))
 def test_command_line_prints_the_problem_and_exits_2(name, capsys, tmp_path):
     from tui.cli import main
 
@@ -345,3 +347,67 @@ def test_different_type_is_not_taken_for_a_rename():
     new = Codebook((Variable("pid", is_id=True), Variable("q2", "string", label="Mood")))
     diff = diff_codebooks(old, new)
     assert (diff.added, diff.removed, diff.renamed) == (("q2",), ("q1",), ())
+
+
+# --------------------------------------------------------------------------- random round trips
+
+_words = st.text(alphabet="abcdefgh ÄéžЖ-?!'\"", min_size=0, max_size=12).map(str.strip)
+
+
+@st.composite
+def _variable(draw, i: int, earlier: list[str]):
+    type_ = draw(st.sampled_from(["integer", "number", "string", "date"]))
+    kw: dict = {"label": draw(_words), "required": draw(st.booleans()),
+                "identifying": draw(st.booleans()), "section": draw(st.sampled_from(["", "1", "p 2"])),
+                "width": draw(st.one_of(st.none(), st.integers(1, 9)))}
+    if earlier and draw(st.booleans()):
+        kw["applies_if"] = f"{draw(st.sampled_from(earlier))} is {draw(st.sampled_from(['', 'not ']))}blank"
+    if type_ == "integer":
+        low, high = sorted(draw(st.lists(st.integers(-50, 50), min_size=2, max_size=2)))
+        low = draw(st.sampled_from([None, low]))
+        high = draw(st.sampled_from([None, high]))
+        kw["min"], kw["max"] = (None if low is None else float(low)), (None if high is None else float(high))
+        if low is not None and high is not None:
+            picks = draw(st.lists(st.integers(low, high), unique=True, max_size=4))
+            kw["codes"] = tuple(Code(str(p), draw(_words)) for p in picks)
+            if draw(st.booleans()):
+                kw["scale"] = draw(st.sampled_from(["calm", "tense"]))
+                kw["reverse"] = draw(st.booleans())
+        outside = [m for m in (-99, 999) if (low is None or m < low) or (high is None or m > high)]
+        outside = [m for m in outside if not ((low is None or m >= low) and (high is None or m <= high))]
+        kw["missing"] = tuple(Code(str(m), draw(_words)) for m in draw(st.lists(
+            st.sampled_from(outside), unique=True, max_size=2))) if outside else ()
+    elif type_ == "number":
+        low, high = sorted(draw(st.lists(st.floats(-100, 100).map(lambda x: round(x, 2)),
+                                         min_size=2, max_size=2)))
+        kw["min"], kw["max"] = low, high
+    elif type_ == "string":
+        kw["codes"] = tuple(Code(c, draw(_words)) for c in draw(st.lists(
+            st.sampled_from(["a", "b", "x y", "Z"]), unique=True, max_size=3)))
+        kw["missing"] = (Code("NA", "not asked"),) if draw(st.booleans()) else ()
+    else:
+        kw["format"] = draw(st.sampled_from(["", "%d.%m.%Y", "%m/%d/%Y"]))
+    return Variable(f"v{i}", type_, **kw)
+
+
+@st.composite
+def _codebooks(draw):
+    variables = [Variable("pid", "string", is_id=True, required=True, label="ID")]
+    for i in range(draw(st.integers(1, 8))):
+        variables.append(draw(_variable(i, [v.name for v in variables[1:]])))
+    # Every item of a scale shares its scale's settings.
+    scale_settings = {s: (draw(st.sampled_from(["mean", "sum"])), draw(st.sampled_from([0.5, 0.8, 1.0])))
+                      for s in ("calm", "tense")}
+    variables = [replace(v, score=scale_settings[v.scale][0], min_answered=scale_settings[v.scale][1])
+                 if v.scale else v for v in variables]
+    return Codebook(tuple(variables))
+
+
+@settings(max_examples=40, deadline=None)
+@given(_codebooks())
+def test_any_valid_codebook_survives_table_schema(cb):
+    descriptor = json.loads(json.dumps(to_table_schema(cb)))
+    # frictionless: the reference implementation of the Table Schema open standard.
+    report = Schema.validate_descriptor(descriptor)
+    assert report.valid, report.flatten(["type", "note"])
+    assert codebook_from_table_schema(descriptor, "schema.json") == cb
