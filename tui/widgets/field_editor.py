@@ -51,7 +51,9 @@ class FieldEditor(Input):
     ]
 
     def __init__(self, keyer: Keyer, **kwargs):
+        # A steady cursor: a blinking one repaints twice a second for nothing.
         super().__init__(select_on_focus=False, **kwargs)
+        self.cursor_blink = False
         self._keyer = keyer
 
     def load(self, text: str, placeholder: str = "") -> None:
