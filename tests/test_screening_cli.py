@@ -137,3 +137,17 @@ def test_bad_input_is_one_line_and_exit_2(study_path, capsys, extra, words):
     assert main(["screen", str(study_path), *extra]) == 2
     err = capsys.readouterr().err
     assert words in err and err.count("\n") == 1 and "Traceback" not in err
+
+
+def test_json_with_rule_keeps_stdout_one_object(study_path, capsys):
+    assert main(["screen", str(study_path), "--json", "--rule", "z:age"]) == 1
+    captured = capsys.readouterr()
+    assert set(json.loads(captured.out)) == {"scales", "variables"}
+    assert "would set aside 1: P15" in captured.err
+
+
+def test_empty_study_says_so(tmp_path, capsys):
+    path = tmp_path / "empty.sqlite"
+    Study.create(path, codebook(), "FF").close()
+    assert main(["screen", str(path)]) == 0
+    assert "No participant in the verified table yet" in capsys.readouterr().out

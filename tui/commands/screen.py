@@ -71,7 +71,8 @@ def run(args: argparse.Namespace) -> int:
     notes = _notes(verified, open_cells)
     if args.json:
         print(result.to_json())
-        for note in notes:
+        # stdout stays one JSON object; what a person should know goes to stderr.
+        for note in notes + _rule_lines(catches, args.apply):
             print(note, file=sys.stderr)
     else:
         print(render_text(result, verified.study, len(data), notes, catches, args.apply))
@@ -138,6 +139,8 @@ def _check_out(path):
 
 def _notes(verified, open_cells: int) -> list[str]:
     notes = []
+    if verified.data.empty:
+        notes.append("No participant in the verified table yet — key or import the passes first.")
     if open_cells:
         notes.append(
             f"Draft: {open_cells} open cell{'s' if open_cells != 1 else ''} left out of every "
@@ -273,12 +276,19 @@ def render_text(result, study_name: str, n: int, notes, catches=None, applied=Fa
             bars = text_histogram(result.scores[scale], bins=8, width=30)
             if bars:
                 lines += ["", f"Distribution of {scale} scores", *bars]
-    for rule, who in (catches or {}).items():
-        verb = "set aside" if applied else "would set aside"
-        lines += ["", f"Rule {rule.name}: {rule.text}",
-                  f"It {verb} {len(who)}: {', '.join(who) if who else 'nobody'}."]  # fmt: skip
+    for line in _rule_lines(catches, applied):
+        lines += ["", line] if line.startswith("Rule ") else [line]
     lines += ["", FOOTNOTE]
     return "\n".join(lines)
+
+
+def _rule_lines(catches, applied: bool) -> list[str]:
+    lines = []
+    for rule, who in (catches or {}).items():
+        verb = "set aside" if applied else "would set aside"
+        lines += [f"Rule {rule.name}: {rule.text}",
+                  f"It {verb} {len(who)}: {', '.join(who) if who else 'nobody'}."]  # fmt: skip
+    return lines
 
 
 # ---------------------------------------------------------------- files
