@@ -48,6 +48,7 @@ import re
 from dataclasses import dataclass, field
 from datetime import date, datetime
 
+import numpy as np
 import pandas as pd
 
 __all__ = ["Condition", "parse_condition", "KEYWORDS"]
@@ -414,14 +415,26 @@ def _kind(col: pd.Series) -> str:
     return "text" if inferred in ("string", "empty") else "mixed"
 
 
+def _per_value(col: pd.Series, fn, na, dtype) -> pd.Series:
+    """``fn`` applied once per distinct value of a text column, then spread back in C.
+
+    Keyed columns repeat a few values (codes, ages) many times, so this costs
+    a hash pass plus one Python call per distinct value, not per cell, and it
+    reads each value exactly as the one-form evaluator does.
+    """
+    codes, uniques = pd.factorize(col.astype(object), use_na_sentinel=True)
+    values = np.array([fn(u) for u in uniques] + [na], dtype=dtype)
+    return pd.Series(values[codes], index=col.index)  # code -1 picks the trailing ``na``
+
+
 def _blank_series(col: pd.Series) -> pd.Series:
     kind = _kind(col)
     if kind in ("numeric", "datetime"):
         return col.isna().astype(bool)
     if kind == "text":
-        stripped = col.astype(object).where(col.notna(), None).str.strip()
-        return (stripped.isna() | (stripped == "")).astype(bool)
-    # Mixed Python objects (a frame built from typed dicts): one call per cell, rare and small.
+        return _per_value(col, _is_blank_one, True, bool)
+    # Mixed Python objects (a frame built from typed dicts): one call per cell, rare and
+    # small; factorizing would merge 1, 1.0 and True, which read differently as text.
     return col.map(_is_blank_one, na_action=None).astype(bool)
 
 
@@ -432,12 +445,10 @@ def _numbers(col: pd.Series) -> pd.Series:
         return col.astype("Float64").astype("float64")
     if kind == "datetime":
         return pd.Series(math.nan, index=col.index, dtype="float64")
+    to_float = lambda v: math.nan if (n := _number_one(v)) is None else n  # noqa: E731
     if kind == "text":
-        text = col.astype(object).where(col.notna(), None).str.strip()
-        ok = text.str.fullmatch(_NUMBER_TEXT.pattern).fillna(False).astype(bool)
-        return pd.to_numeric(text.where(ok).str.replace(",", ".", regex=False),
-                             errors="coerce").astype("float64")
-    return col.map(lambda v: math.nan if (n := _number_one(v)) is None else n).astype("float64")
+        return _per_value(col, to_float, math.nan, "float64")
+    return col.map(to_float).astype("float64")
 
 
 def _texts(col: pd.Series) -> pd.Series:
