@@ -31,8 +31,6 @@ COLUMNS = (
     "new_text", "new_state", "reason", "detail", "prev_hash", "hash",
 )  # fmt: skip
 
-_CELL = ["form_id", "variable", "text", "state"]
-
 
 @dataclass(frozen=True)
 class AuditResult:
@@ -101,72 +99,90 @@ def check_chain(rows: list[tuple], head: str = "") -> tuple[int, str] | None:
     return None
 
 
-def replay_values(rows: list[tuple]) -> pd.DataFrame:
-    """What the values table must hold according to the journal.
+def replay_grid(
+    rows: list[tuple], index: pd.Index, names: list[str]
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """What the values must be according to the journal, as grids over forms x variables.
 
-    Returns one row per (form_id, variable) with the newest ``text``,
-    ``state`` and the ``seq`` of the journal row that wrote it.
+    ``index`` holds the form ids, ``names`` the variables (cells of other
+    variables are ignored). Returns ``(text, state, seq)`` object grids: the
+    newest text and state written to each cell and the seq of the journal row
+    that wrote it; None where the journal never wrote the cell. An imported
+    form's row comes before any later change to it, so imports are laid down
+    first and single-field changes over them in seq order.
 
-    >>> replay_values([]).empty
-    True
+    >>> t, s, q = replay_grid([], pd.Index([1]), ["a"])
+    >>> t.tolist(), s.tolist()
+    ([[None]], [[None]])
     """
-    sets = [(r[0], r[4], r[5], r[8], r[9]) for r in rows if r[3] == "set_value"]
-    frames = [pd.DataFrame(sets, columns=["seq", *_CELL], dtype=object)]
+    text = np.full((len(index), len(names)), None, dtype=object)
+    state, seq = text.copy(), text.copy()
+    columns = pd.Index(names)
     imports = [r for r in rows if r[3] == "import_form"]
     if imports:
         details = [json.loads(r[11]) for r in imports]
-        wide = pd.DataFrame([d["text"] for d in details], index=[r[4] for r in imports])
-        wide.index.name, wide.columns.name = "form_id", "variable"
-        long = wide.astype(object).stack().rename("text").reset_index()
-        long = long[long["text"].notna()].copy()
-        long["state"] = np.where(long["text"] == "", BLANK, KEYED)
-        marked = {(r[4], v) for r, d in zip(imports, details, strict=True) for v in d["illegible"]}
-        if marked:
-            hit = pd.MultiIndex.from_frame(long[["form_id", "variable"]]).isin(list(marked))
-            long.loc[hit, "state"] = ILLEGIBLE
-        long["seq"] = long["form_id"].map({r[4]: r[0] for r in imports})
-        frames.append(long[["seq", *_CELL]].astype(object))
-    frames = [f for f in frames if not f.empty]
-    if not frames:
-        return pd.DataFrame(columns=["seq", *_CELL])
-    out = pd.concat(frames, ignore_index=True)
-    out = out.sort_values("seq", kind="stable")
-    return out.drop_duplicates(["form_id", "variable"], keep="last")
+        wide = pd.DataFrame([d["text"] for d in details], dtype=object).reindex(columns=names)
+        got = wide.to_numpy(dtype=object)
+        got = np.where(pd.isna(got), None, got)
+        at = index.get_indexer([r[4] for r in imports])
+        keep = at >= 0
+        got, at = got[keep], at[keep]
+        kinds = np.where(got == "", BLANK, KEYED).astype(object)
+        for i, d in enumerate(d for d, k in zip(details, keep, strict=True) if k):
+            for name in d["illegible"]:
+                j = columns.get_loc(name) if name in columns else None
+                if j is not None:
+                    kinds[i, j] = ILLEGIBLE
+        kinds[got == None] = None  # noqa: E711 - elementwise on an object array
+        text[at], state[at] = got, kinds
+        seqs = np.array([r[0] for r in imports], dtype=object)[keep]
+        seq[at] = np.where(got == None, None, seqs[:, None])  # noqa: E711
+    sets = pd.DataFrame(
+        [(r[0], r[4], r[5], r[8], r[9]) for r in rows if r[3] == "set_value"],
+        columns=["seq", "form_id", "variable", "text", "state"], dtype=object,
+    ).drop_duplicates(["form_id", "variable"], keep="last")  # rows come in seq order
+    if len(sets):
+        i = index.get_indexer(sets["form_id"].astype("int64"))
+        j = columns.get_indexer(sets["variable"])
+        ok = (i >= 0) & (j >= 0)
+        for grid, col in ((text, "text"), (state, "state"), (seq, "seq")):
+            grid[i[ok], j[ok]] = sets[col].to_numpy(dtype=object)[ok]
+    return text, state, seq
 
 
-def first_difference(expected: pd.DataFrame, stored: pd.DataFrame, what: str) -> tuple[int | None, str] | None:
-    """The first cell where ``stored`` differs from ``expected`` (a replay), as
-    (seq, sentence), or None when they agree. ``what`` names the stored side.
+def first_difference(
+    expected: tuple[np.ndarray, np.ndarray, np.ndarray],
+    stored: tuple[np.ndarray, np.ndarray],
+    index: pd.Index,
+    names: list[str],
+    what: str,
+) -> tuple[int | None, str] | None:
+    """The first cell (by journal seq) where ``stored`` grids differ from the
+    replay ``expected``, as (seq, sentence), or None when they agree.
+    ``what`` names the stored side in the sentence.
 
-    >>> first_difference(replay_values([]), pd.DataFrame(columns=_CELL), "the values") is None
+    >>> g = replay_grid([], pd.Index([1]), ["a"])
+    >>> first_difference(g, g[:2], pd.Index([1]), ["a"], "the values") is None
     True
     """
-    both = expected.merge(
-        stored.astype(object), on=["form_id", "variable"], how="outer",
-        suffixes=("_j", "_s"), indicator=True,
-    )  # fmt: skip
-    wrong = both[
-        (both["_merge"] != "both")
-        | (both["text_j"] != both["text_s"])
-        | (both["state_j"] != both["state_s"])
-    ]
-    if wrong.empty:
+    e_text, e_state, e_seq = expected
+    s_text, s_state = stored
+    wrong = (e_text != s_text) | (e_state != s_state)
+    if not wrong.any():
         return None
-    w = wrong.sort_values("seq", na_position="last").iloc[0]
-    where = f"form {int(w['form_id'])} field \"{w['variable']}\""
-    if w["_merge"] == "right_only":
-        return None, (
-            f"{where} in {what} holds \"{w['text_s']}\" ({w['state_s']}) but the journal never "
-            "recorded it — the file was changed outside keyproof; compare it with a backup."
-        )
-    seq = int(w["seq"])
-    if w["_merge"] == "left_only":
-        return seq, (
-            f"{where} is missing from {what}, though journal row {seq} recorded "
-            f"\"{w['text_j']}\" — the file was changed outside keyproof; compare it with a backup."
-        )
-    return seq, (
-        f"{where} in {what} holds \"{w['text_s']}\" ({w['state_s']}) but journal row {seq} "
-        f"recorded \"{w['text_j']}\" ({w['state_j']}) — the file was changed outside keyproof; "
-        "compare it with a backup."
-    )
+    rows, cols = np.nonzero(wrong)
+    seqs = e_seq[rows, cols]
+    known = np.array([s is not None for s in seqs])
+    pick = int(np.argmin(np.where(known, seqs, np.iinfo(np.int64).max).astype(np.int64)))
+    r, c = rows[pick], cols[pick]
+    where = f"form {int(index[r])} field \"{names[c]}\""
+    advice = "the file was changed outside keyproof; compare it with a backup."
+    if e_state[r, c] is None:
+        return None, (f"{where} in {what} holds \"{s_text[r, c]}\" ({s_state[r, c]}) but the "
+                      f"journal never recorded it — {advice}")  # fmt: skip
+    seq = int(e_seq[r, c])
+    if s_state[r, c] is None:
+        return seq, (f"{where} is missing from {what}, though journal row {seq} recorded "
+                     f"\"{e_text[r, c]}\" — {advice}")  # fmt: skip
+    return seq, (f"{where} in {what} holds \"{s_text[r, c]}\" ({s_state[r, c]}) but journal row "
+                 f"{seq} recorded \"{e_text[r, c]}\" ({e_state[r, c]}) — {advice}")  # fmt: skip

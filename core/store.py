@@ -42,7 +42,7 @@ from .codebook import Codebook
 from .codebook_diff import CodebookDiff, diff_codebooks
 from .errors import DecisionError, StoreError
 from .journal import COLUMNS as _JOURNAL_COLUMNS
-from .journal import GENESIS, AuditResult, check_chain, first_difference, replay_values, row_hash
+from .journal import GENESIS, AuditResult, check_chain, first_difference, replay_grid, row_hash
 from .passdata import PassData
 from .values import BLANK, ILLEGIBLE, KEYED, STATES
 
@@ -411,16 +411,7 @@ class Study:
         head = self._query("SELECT value FROM meta WHERE key = 'journal_head'")
         bad = check_chain(rows, head[0][0] if head else "")
         if bad is None:
-            expected = replay_values(rows)
-            stored = pd.DataFrame(
-                self._query("SELECT form_id, variable, text, state FROM form_values"),
-                columns=["form_id", "variable", "text", "state"],
-            )
-            bad = first_difference(expected, stored, "the values table")
-        if bad is None:
-            names = set(self.codebook.names)
-            kept = expected[expected["variable"].isin(names)]
-            bad = first_difference(kept, self._snapshot_cells(), "the forms' copies")
+            bad = self._check_values(rows)
         if bad is not None:
             return AuditResult(False, len(rows), bad[0], f"{self.name}: {bad[1]}")
         triggers = {r[0] for r in self._query("SELECT name FROM sqlite_master WHERE type = 'trigger'")}
@@ -434,16 +425,32 @@ class Study:
         top = rows[-1][13][:12] if rows else GENESIS[:12]
         return AuditResult(True, len(rows), None, f"{self.name}: journal intact — {len(rows)} rows, head {top}.")
 
-    def _snapshot_cells(self) -> pd.DataFrame:
-        """The forms' value copies as a long table (form_id, variable, text, state)."""
-        frames = []
-        for pass_no in (1, 2):
-            p = self.load_pass(pass_no, include_dropped=True)
-            text = p.text.rename_axis(columns="variable").stack().rename("text")
-            state = p.state.rename_axis(columns="variable").stack().rename("state")
-            frames.append(pd.concat([text, state], axis=1).reset_index())
-        out = pd.concat(frames, ignore_index=True)
-        return out[out["state"].notna()]
+    def _check_values(self, rows: list[tuple]) -> tuple[int | None, str] | None:
+        """Replay the journal's value changes; compare with form_values and with
+        the forms' copies (codebook variables only)."""
+        index = pd.Index([r[0] for r in self._query("SELECT form_id FROM forms ORDER BY form_id")],
+                         dtype="int64")  # fmt: skip
+        cells = self._query("SELECT form_id, variable, text, state FROM form_values")
+        names = self.codebook.names
+        seen = {r[5] for r in rows if r[3] == "set_value"} | {c[1] for c in cells}
+        for r in rows:
+            if r[3] == "import_form":
+                seen.update(json.loads(r[11])["text"])
+        universe = names + sorted(seen - set(names))
+        expected = replay_grid(rows, index, universe)
+        bad = first_difference(expected, _grid(index, universe, cells), index, universe,
+                               "the values table")  # fmt: skip
+        if bad is not None:
+            return bad
+        copies = [self.load_pass(n, include_dropped=True) for n in (1, 2)]
+        text = pd.concat([c.text for c in copies]).reindex(index)
+        state = pd.concat([c.state for c in copies]).reindex(index)
+        width = len(names)
+        return first_difference(
+            tuple(g[:, :width] for g in expected),
+            (text.to_numpy(dtype=object), state.to_numpy(dtype=object)),
+            index, names, "the forms' copies",
+        )  # fmt: skip
 
     # -- settings and codebook -----------------------------------------
 
@@ -1079,6 +1086,9 @@ def _connect(path: Path, readonly: bool) -> sqlite3.Connection:
         conn.execute("PRAGMA journal_mode = WAL")
     conn.execute("PRAGMA synchronous = FULL")
     conn.execute("PRAGMA foreign_keys = ON")
+    # A whole imported pass is one transaction; a larger page cache keeps it
+    # from spilling to disk halfway (the default is 2 MB).
+    conn.execute("PRAGMA cache_size = -65536")
     return conn
 
 

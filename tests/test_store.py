@@ -330,3 +330,13 @@ def test_error_messages(tmp_path, study):
         study.set_value(999, "age", "1", "keyed", "AB")
     with pytest.raises(StoreError, match="pass 3 does not exist"):
         study.start_form(3, "AB")
+
+
+def test_audit_catches_a_forms_copy_changed_behind_journal(study):
+    ids = study.import_pass(1, "AB", pd.DataFrame({"pid": ["1"], "age": ["30"], "note": ["x"]}))
+    con = raw(study)
+    # The copy is a JSON array in codebook order (pid, age, q1, note).
+    con.execute("UPDATE forms SET texts = ? WHERE form_id = ?", (json.dumps(["1", "31", None, "x"]), ids[0]))
+    con.commit()
+    result = Study.open(study.path, readonly=True).audit()
+    assert not result.ok and 'field "age"' in result.message and "copies" in result.message
