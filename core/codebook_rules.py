@@ -76,7 +76,11 @@ def _nearest_type(word: str) -> str | None:
 
 
 def unknown_column_problem(where: str, column: str) -> str:
-    """The sentence for a column keyproof does not read, with the nearest known one."""
+    """The sentence for a column keyproof does not read, with the nearest known one.
+
+    >>> unknown_column_problem("cb.csv row 1", "lable")
+    'cb.csv row 1: unknown column "lable" — did you mean "label"? Rename it, or delete the column.'
+    """
     guess = nearest(column, COLUMNS)
     if guess:
         return (f'{where}: unknown column "{column}" — did you mean "{guess}"? '

@@ -72,7 +72,14 @@ def write_table_schema(codebook: Codebook, path) -> Path:
 
 
 def read_table_schema(path) -> Codebook:
-    """Read a Table Schema ``.json`` (or a Data Package's first resource schema) as a codebook."""
+    """Read a Table Schema ``.json`` (or a Data Package's first resource schema) as a codebook.
+
+    >>> import tempfile, pathlib
+    >>> p = pathlib.Path(tempfile.mkdtemp()) / "schema.json"
+    >>> _ = p.write_text('{"fields": [{"name": "pid", "type": "string"}], "primaryKey": "pid"}')
+    >>> read_table_schema(p).id_variable.name
+    'pid'
+    """
     path = Path(path)
     try:
         data = json.loads(path.read_text(encoding="utf-8-sig"))

@@ -96,6 +96,10 @@ EXPECTED = {
                                     "scale the same setting, or leave all but one blank."],
     "min_answered_not_a_share.csv": ['min_answered_not_a_share.csv row 6 ("mood1"): min_answered "80" '
                                      "is not a share between 0 and 1 — write a share such as 0.8 or 80%."],
+    "header_only.csv": ["header_only.csv lists no variables — add one row per variable under the header."],
+    "duplicate_column.csv": ['duplicate_column.csv row 1: column "label" appears twice — keep one of them.'],
+    "old_format.xls": ["old_format.xls: the old .xls format cannot be read — save it as .xlsx (Excel "
+                       "workbook) or .csv and try again."],
     "many_problems.csv": [
         'many_problems.csv row 3 ("age"): min 99 is greater than max 16 — swap them or fix the typo.',
         'many_problems.csv row 4 ("Age"): the name repeats row 3 ("age"), ignoring case — rename one '

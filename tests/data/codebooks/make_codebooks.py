@@ -74,6 +74,8 @@ BAD_CSV = {
     "min_answered_not_a_share.csv": "\n".join([
         HEADER + ",score,min_answered", *(line + ",," for line in BASE[:4]),
         BASE[4] + ",,80", BASE[5] + ",,", BASE[6] + ",,"]) + "\n",
+    "header_only.csv": HEADER + "\n",
+    "duplicate_column.csv": variant(2, header=HEADER.replace("section", "label")),
     "many_problems.csv": "\n".join([
         HEADER, BASE[0],
         "age,Age in years,integer,no,99,16,,-9=refused,yes,no,1,,no,,",
@@ -127,6 +129,8 @@ def write_bad() -> None:
     BAD.mkdir(parents=True, exist_ok=True)
     for name, text in BAD_CSV.items():
         (BAD / name).write_text(text, encoding="utf-8")
+    # The old binary spreadsheet format (the content does not matter: it is refused by name).
+    (BAD / "old_format.xls").write_bytes(b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1")
     # XLSX: min > max with numbers stored as floats.
     _workbook(_grid(BAD_CSV["min_greater_than_max.csv"])).save(BAD / "min_greater_than_max.xlsx")
     # XLSX: a formula the spreadsheet never calculated (openpyxl saves no result).
