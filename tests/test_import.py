@@ -344,3 +344,12 @@ def test_xlsx_value_beyond_the_named_columns_is_refused(tmp_path):
         "w.xlsx cell H2: a value in a column with no name in row 1 — name the column or "
         "clear the cell."
     )
+
+
+def test_windows_line_endings(tmp_path):
+    # RFC 4180 writes CRLF between records; the row numbers and texts are the same.
+    path = tmp_path / "crlf.csv"
+    path.write_bytes(csv_text(ROWS).replace("\n", "\r\n").encode("utf-8"))
+    texts, notes = read_keyed_file(path, CB)
+    assert texts.values.tolist() == ROWS and list(texts.index) == [2, 3]
+    assert notes == []
