@@ -30,6 +30,8 @@ from dataclasses import dataclass
 from core.conditions import parse_condition
 from core.values import BLANK, ILLEGIBLE, KEYED, allowed_text, clean_text, parse
 
+from .keying_checks import QuickCheck
+
 ID_MODE = "id"
 CHOOSE_MODE = "choose"
 FIELD_MODE = "field"
@@ -65,7 +67,10 @@ class KeyingModel:
         self.names = [v.name for v in self.variables]
         self.id_index = next(i for i, v in enumerate(self.variables) if v.is_id)
         self._conditions = [parse_condition(v.applies_if) for v in self.variables]
+        # Only variables a condition mentions are ever parsed for applies_if.
+        self._condition_names = {n for c in self._conditions for n in c.names}
         self.widths = [v.implied_width for v in self.variables]
+        self._quick = [QuickCheck(v) for v in self.variables]
         self.allowed = [allowed_text(v) for v in self.variables]
         self.auto_advance = str(study.get_setting(AUTO_ADVANCE_SETTING, "on")) != "off"
         self.mode = ID_MODE
@@ -198,9 +203,11 @@ class KeyingModel:
     # ------------------------------------------------------------------ fields
 
     def typed_values(self) -> dict:
-        """This form's keyed values, typed where they parse (for ``applies_if``)."""
+        """Keyed values that conditions mention, typed where they parse (for ``applies_if``)."""
         out = {}
         for var in self.variables:
+            if var.name not in self._condition_names:
+                continue
             text = self.texts.get(var.name)
             if self.states.get(var.name) != KEYED or text is None:
                 continue
@@ -241,6 +248,8 @@ class KeyingModel:
 
     def problem_of(self, index: int, text: str) -> str:
         """The soft-check message for ``text`` in field ``index``; empty when allowed."""
+        if self._quick[index].allowed(text):
+            return ""
         parsed = parse(self.variables[index], text)
         return parsed.message if parsed.problem else ""
 

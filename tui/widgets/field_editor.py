@@ -69,8 +69,6 @@ class FieldEditor(Input):
             self._keyer.editor_confirm(self.value)
         elif key in ("shift+tab", "up"):
             self._keyer.editor_back()
-        elif key == "down":
-            self._keyer.editor_confirm(self.value)
         elif key == "escape":
             self._keyer.editor_escape()
         elif (event.character == ILLEGIBLE_CHARACTER or key == "multiply") and not self.value:
