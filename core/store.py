@@ -272,25 +272,19 @@ class Study:
         """
         if self.readonly:
             raise StoreError(f"{self.name} is open read-only — open it for writing to change it.")
-        with self._lock:
+        with self._lock, self._errors():
             cur = self._conn.cursor()
             if self._depth == 0:
-                with self._errors():
-                    # IMMEDIATE takes the write lock now, so a second process waits
-                    # here (busy_timeout) instead of failing halfway through.
-                    cur.execute("BEGIN IMMEDIATE")
+                # IMMEDIATE takes the write lock now, so a second process waits
+                # here (busy_timeout) instead of failing halfway through.
+                cur.execute("BEGIN IMMEDIATE")
                 self._depth = 1
                 try:
                     yield cur
+                    self._depth = 0
+                    cur.execute("COMMIT")
                 except BaseException:
                     self._depth = 0
-                    self._conn.execute("ROLLBACK")
-                    raise
-                self._depth = 0
-                try:
-                    with self._errors():
-                        cur.execute("COMMIT")
-                except BaseException:
                     if self._conn.in_transaction:
                         self._conn.execute("ROLLBACK")
                     raise

@@ -340,3 +340,45 @@ def test_audit_catches_a_forms_copy_changed_behind_journal(study):
     con.commit()
     result = Study.open(study.path, readonly=True).audit()
     assert not result.ok and 'field "age"' in result.message and "copies" in result.message
+
+
+def test_forward_migration_and_newer_schema(study, monkeypatch):
+    import core.store as store
+
+    study.close()
+    # A made-up version 2 that adds a column: opening the old file migrates it.
+    monkeypatch.setitem(store.MIGRATIONS, 2, ["ALTER TABLE forms ADD COLUMN page INTEGER"])
+    monkeypatch.setattr(store, "SCHEMA_VERSION", 2)
+    with pytest.raises(StoreError, match="older schema"):
+        Study.open(study.path, readonly=True)
+    Study.open(study.path).close()
+    con = raw(study)
+    assert con.execute("PRAGMA user_version").fetchone()[0] == 2
+    assert "page" in [r[1] for r in con.execute("PRAGMA table_info(forms)")]
+    con.execute("PRAGMA user_version = 9")
+    con.close()
+    with pytest.raises(StoreError, match=r"newer keyproof \(schema 9"):
+        Study.open(study.path)
+
+
+def test_two_open_studies_keep_one_chain(study):
+    other = Study.open(study.path)
+    f = study.start_form(1, "AB")
+    for i in range(5):
+        (study if i % 2 else other).set_value(f, "age", str(20 + i), "keyed", "AB")
+    # A codebook change made through one handle is seen by the other's next write.
+    more = Codebook(CB.variables + (Variable("extra", "integer"),))
+    other.update_codebook(more, "AB")
+    study.set_value(f, "extra", "1", "keyed", "AB")
+    assert other.load_pass(1).text.loc[f, "extra"] == "1"
+    other.close()
+    assert study.audit().ok
+
+
+def test_sqlite_errors_inside_a_transaction_become_store_errors(study):
+    f = study.start_form(1, "AB")
+    # Breaking a table rule (CHECK on the state column) surfaces as one sentence.
+    with pytest.raises(StoreError, match="study.sqlite: the change breaks a rule"):
+        with study.transaction() as cur:
+            cur.execute("INSERT INTO form_values (form_id, variable, text, state) VALUES (?, 'age', '', 'odd')", (f,))
+    assert study.form(f).texts == {}
