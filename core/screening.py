@@ -294,6 +294,8 @@ class Descriptives:
     outliers_z: tuple[str, ...] = ()
     outliers_tukey: tuple[str, ...] = ()
     frequencies: pd.DataFrame | None = None
+    measured: bool = False
+    """True for a number without codes: the moments and outliers apply."""
 
 
 def describe(
@@ -302,7 +304,8 @@ def describe(
     participants: pd.Series | None = None,
     z_threshold: float = Z_THRESHOLD,
 ) -> Descriptives:
-    """Descriptives of one column: counts, missing by code, moments, frequencies, outliers.
+    """Descriptives of one column: counts, missing by code, then moments and outliers
+    for numbers, or frequencies with labels for coded variables.
 
     ``participants`` (aligned with ``series``) names the flagged outliers;
     without it the index is used.
@@ -314,8 +317,12 @@ def describe(
     """
     who = participants if participants is not None else pd.Series(series.index.astype(str))
     who = pd.Series(who.to_numpy(), index=series.index).astype(str)
-    if var.type not in NUMERIC:
-        s, missing = _text_values(series, var)
+    if var.type not in NUMERIC or var.codes:
+        # Codes name categories: counts with labels, not means (the issue's "for codes").
+        if var.type in NUMERIC:
+            s, missing = numeric_values(series, var)
+        else:
+            s, missing = _text_values(series, var)
         n = int(s.notna().sum())
         blank = int(series.isna().sum())
         return Descriptives(var.name, n, blank, missing, frequencies=_frequencies(s, var, n))
@@ -344,7 +351,7 @@ def describe(
         fences=fences,
         outliers_z=tuple(who[z_hit]),
         outliers_tukey=tuple(who[fence_hit]),
-        frequencies=_frequencies(x, var, n) if var.codes else None,
+        measured=True,
     )
 
 
@@ -411,7 +418,7 @@ def sensitivity(
 ) -> pd.DataFrame:
     """The same descriptives with and without set-aside participants, side by side.
 
-    One row per numeric variable and per scale score: ``name``, then ``n``,
+    One row per numeric (not coded) variable and per scale score: ``name``, then ``n``,
     ``mean``, ``sd`` and ``median`` for all participants (``_all``) and for
     those kept (``_kept``).
 
@@ -444,7 +451,11 @@ def _numeric_table(data: pd.DataFrame, codebook: Codebook) -> dict[str, pd.Serie
     out = {
         v.name: numeric_values(data[v.name], v)[0]
         for v in codebook
-        if v.type in NUMERIC and not v.is_id and not v.identifying and v.name in data
+        if v.type in NUMERIC
+        and not v.codes
+        and not v.is_id
+        and not v.identifying
+        and v.name in data
     }
     scores = scale_scores(data, codebook).scores
     for scale in codebook.scales:
@@ -487,9 +498,10 @@ class ZRule:
             x = scale_scores(data, codebook).scores[self.variable]
         else:
             var = _variable(codebook, self.variable)
-            if var.type not in NUMERIC:
+            if var.type not in NUMERIC or var.codes:
                 raise UsageError(
-                    f"rule {self.name}: {var.name} is not a number — pick a numeric variable."
+                    f"rule {self.name}: {var.name} is not a measured number (it is "
+                    f"{'coded' if var.codes else var.type}) — pick a numeric variable or a scale."
                 )
             x, _ = numeric_values(data[var.name], var)
         hit = (z_scores(x).abs() > self.threshold).fillna(False)

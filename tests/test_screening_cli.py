@@ -48,15 +48,21 @@ def texts(pets) -> pd.DataFrame:
     )
 
 
-@pytest.fixture
-def study_path(tmp_path):
-    path = tmp_path / "tiny.sqlite"
-    pets2 = list(PETS)
-    pets2[3] = "2"  # one disagreement, left open: the screening is a draft
+def build(path, changes):
+    """A study whose pass 2 differs from pass 1 at ``changes`` ((row, column) -> text)."""
+    second = texts(PETS)
+    for (row, column), text in changes.items():
+        second.loc[row, column] = text
     with Study.create(path, codebook(), "FF") as study:
         study.import_pass(1, "AB", texts(PETS))
-        study.import_pass(2, "JM", texts(pets2))
+        study.import_pass(2, "JM", second)
     return path
+
+
+@pytest.fixture
+def study_path(tmp_path):
+    # One disagreement, left open: the screening is a draft.
+    return build(tmp_path / "tiny.sqlite", {(3, "pet"): "2"})
 
 
 def items_frame() -> pd.DataFrame:
@@ -116,12 +122,15 @@ def test_rule_preview_then_apply(study_path, capsys):
     assert (age["n"], age["with_set_aside"]["n"]) == (len(AGES) - 2, len(AGES) - 1)
 
 
-def test_apply_refuses_while_rule_variables_are_open(study_path, capsys):
-    status = main(["screen", str(study_path), "--rule", "z:pet", "--apply", "--keyer", "FF"])
+def test_apply_refuses_while_rule_variables_are_open(tmp_path, capsys):
+    path = build(tmp_path / "open.sqlite", {(4, "a2"): "3"})
+    status = main(["screen", str(path), "--rule", "blank:A:0", "--apply", "--keyer", "FF"])
     assert status == 1
     assert "settle them" in capsys.readouterr().err
-    with Study.open(study_path, readonly=True) as study:
+    with Study.open(path, readonly=True) as study:
         assert study.set_asides().empty
+    assert main(["screen", str(path), "--rule", "z:pet"]) == 2  # coded: no z
+    assert "coded" in capsys.readouterr().err
 
 
 @pytest.mark.parametrize(

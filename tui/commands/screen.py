@@ -243,7 +243,8 @@ def sections(result) -> list[tuple[str, object, dict[str, str]]]:
         for name in scales["name"]:
             items = tables["items"][tables["items"]["scale"] == name]
             out.append((f"Items of {name}", items, ITEM_COLUMNS))
-    numeric = variables[variables["mean"].notna() | variables["n"].eq(0)]
+    measured = [name for name, d in result.variables.items() if d.measured]
+    numeric = variables[variables["name"].isin(measured)]
     if len(numeric):
         out.append(("Variables", numeric, VARIABLE_COLUMNS))
     kappa = variables[variables["kappa_n"].notna()]
