@@ -423,6 +423,9 @@ def _sections(report: Report) -> list[tuple[str, list]]:
             "Errors per 10,000 fields keyed, attributed through the decisions: where a "
             "decision says what the paper holds, the pass whose value differs from it made "
             "the error. Intervals are 95 % Wilson score intervals.",
+            *([f"{open_n + stale_n:,} discrepancies are still open; errors behind them are "
+               "not counted yet, so these rates are lower bounds until everything is settled."]
+              if open_n + stale_n else []),
             _rates_table(report.keyer_rates, "keyer"),
             ("By pass", _rates_table(report.pass_rates, "pass")),
             "PLOT",

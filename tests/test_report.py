@@ -204,3 +204,8 @@ def test_plot_places_each_interval_inside_the_axis():
     xs = [float(d.get("cx")) for d in dots]
     assert all(90 <= x <= 530 for x in xs)
     assert xs[0] < xs[1]  # AB's 1,250 sits left of CD's 5,000
+
+
+def test_open_work_is_said_to_make_rates_lower_bounds():
+    # The hand-worked study has 2 open and 1 stale discrepancy (see above).
+    assert "3 discrepancies are still open" in render_markdown(_report())
