@@ -234,7 +234,9 @@ FOOTNOTE = (
 def sections(result) -> list[tuple[str, object, dict[str, str]]]:
     """(heading, table, columns) for each part of the screening that has rows."""
     tables = result.tables()
-    summary = tables["summary"]
+    summary = tables["summary"].copy()
+    for column in ("outliers_z", "outliers_tukey"):
+        summary[column] = summary[column].map(_few)
     scales = summary[summary["kind"] == "scale"]
     variables = summary[(summary["kind"] == "variable")]
     out = []
@@ -258,6 +260,18 @@ def sections(result) -> list[tuple[str, object, dict[str, str]]]:
         out.append(("With and without set-aside participants", tables["sensitivity"],
                     SENSITIVITY_COLUMNS))  # fmt: skip
     return out
+
+
+def _few(ids: str, shown: int = 4) -> str:
+    """A list of IDs short enough for a table cell; --json and --out .csv keep them all.
+
+    >>> _few("1 2 3 4 5 6")
+    '1 2 3 4 (+2 more)'
+    """
+    parts = str(ids or "").split()
+    if len(parts) <= shown:
+        return " ".join(parts)
+    return " ".join(parts[:shown]) + f" (+{len(parts) - shown} more)"
 
 
 def render_text(result, study_name: str, n: int, notes, catches=None, applied=False) -> str:
