@@ -325,3 +325,13 @@ async def test_only_listed_choices_are_taken(tmp_path, bad):
         await pilot.press("escape")
         assert app.screen.model.mode == ID_MODE
     assert len(stored(path)) == 1
+
+
+@sync
+async def test_an_id_keyed_with_a_leading_zero_finds_the_form(tmp_path):
+    # DESIGN.md: "07" and "7" are the same integer, so they are the same participant.
+    path = make_study(tmp_path)
+    app = make_app(path, mode="key", pass_no=1, keyer="AB")
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press(*field_keys(["7", "AK"]), "escape", *field_keys(["07"]))
+        assert app.screen.model.mode == "choose"

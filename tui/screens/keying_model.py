@@ -124,16 +124,19 @@ class KeyingModel:
         if not text.strip():
             self.message = "Type the participant ID written on the form, then Enter."
             return
-        parsed = parse(var, text)
-        if parsed.problem and self._warned != (-1, text):
+        problem = self.problem_of(self.id_index, text)
+        if problem and self._warned != (-1, text):
             self._warned = (-1, text)
-            self.message = f"{parsed.message} Enter again keeps it as the paper says."
+            self.message = f"{problem} Enter again keeps it as the paper says."
             return
         self._warned = None
         self.pending_id = text
         found = set(self.study.find_forms(self.pass_no, text))
-        if parsed.ok and parsed.canonical != text:
-            found |= set(self.study.find_forms(self.pass_no, parsed.canonical))
+        canonical = self._quick[self.id_index].canonical(text)
+        if canonical is None and not problem:
+            canonical = parse(var, text).canonical
+        if canonical and canonical != text.strip():  # "07" finds a form keyed "7"
+            found |= set(self.study.find_forms(self.pass_no, canonical))
         self.candidates = sorted(found)[:9]
         if not self.candidates:
             self._new_form()
