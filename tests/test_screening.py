@@ -51,9 +51,13 @@ def likert(name, scale="", reverse=False, **kw):
 
 def test_alpha_on_denis_worked_example():
     # Source: D. J. Denis, "Applied Univariate, Bivariate, and Multivariate
-    # Statistics" (Wiley), Cronbach's alpha example, SPSS "Reliability
-    # Statistics" table: alpha = 0.633 for these 10 cases x 5 items.
+    # Statistics" (Wiley; 1st ed. 2016 — year from memory, edition not
+    # checked), Cronbach's alpha example, SPSS "Reliability Statistics" table:
+    # alpha = 0.633 for these 10 cases x 5 items; "Item Statistics" table:
+    # SDs 2.71006, 5.05085, 4.74810, 2.71621, 3.80058 (checked below with pandas,
+    # so the re-keyed data is known to be the book's).
     items = pd.read_csv(DATA / "denis_alpha_items.csv").drop(columns="case")
+    assert items.std(ddof=1).round(5).tolist() == [2.71006, 5.05085, 4.74810, 2.71621, 3.80058]
     result = cronbach_alpha(items)
     assert round(result.alpha, 3) == 0.633
     assert (result.n_used, result.k) == (10, 5)
