@@ -52,7 +52,7 @@ def likert(name, scale="", reverse=False, **kw):
 def test_alpha_on_denis_worked_example():
     # Source: D. J. Denis, "Applied Univariate, Bivariate, and Multivariate
     # Statistics" (Wiley; 1st ed. 2016 — year from memory, edition not
-    # checked), Cronbach's alpha example, SPSS "Reliability Statistics" table:
+    # checked), Cronbach's alpha example, its "Reliability Statistics" output table:
     # alpha = 0.633 for these 10 cases x 5 items; "Item Statistics" table:
     # SDs 2.71006, 5.05085, 4.74810, 2.71621, 3.80058 (checked below with pandas,
     # so the re-keyed data is known to be the book's).
