@@ -43,6 +43,7 @@ from .errors import CodebookError
 __all__ = [
     "CodebookDiff",
     "VariableChange",
+    "codebook_from_grid",
     "codebook_from_table_schema",
     "diff_codebooks",
     "load_codebook",

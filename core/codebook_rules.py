@@ -382,7 +382,7 @@ def _check_id(check: _Checker, variables, raws, label: str) -> None:
 
 def _check_conditions(check: _Checker, variables, raws) -> None:
     position = {v.name: i for i, v in enumerate(variables) if v.name}
-    types = {v.name: v.type for v in variables}
+    by_name = {v.name: v for v in variables if v.name}
     for i, (var, raw) in enumerate(zip(variables, raws, strict=True)):
         if not var.applies_if:
             continue
@@ -402,14 +402,42 @@ def _check_conditions(check: _Checker, variables, raws) -> None:
                 where = "itself" if ref == var.name else "a later variable"
                 check.add(raw, var.name, f'applies_if names "{ref}", {where}',
                           "a condition may only use variables that come earlier on the form")
-        for ref, literal in cond.literals:
-            kind = types.get(ref)
-            if kind in ("integer", "number") and isinstance(literal, str):
-                check.add(raw, var.name, f'applies_if compares the {kind} "{ref}" with quoted text "{literal}"',
-                          "write the number without quotes")
-            elif kind == "date" and not isinstance(literal, str):
-                check.add(raw, var.name, f'applies_if compares the date "{ref}" with a number',
-                          'write the date in quotes as "YYYY-MM-DD"')
+        for ref, op, literals in cond.tests:
+            if ref in by_name:
+                _check_literals(check, raw, var.name, by_name[ref], op, literals)
+
+
+def _check_literals(check: _Checker, raw: RawRow, name: str, ref: Variable, op: str,
+                    literals: tuple) -> None:
+    """Catch literals that can never match: wrong kind, a date not in ISO, an unknown code."""
+    for literal in literals:
+        shown = _num(literal) if isinstance(literal, float) else f'"{literal}"'
+        if ref.type in ("integer", "number") and isinstance(literal, str):
+            check.add(raw, name, f'applies_if compares the {ref.type} "{ref.name}" with quoted text '
+                      f"{shown}", "write the number without quotes")
+        elif ref.type == "date" and not isinstance(literal, str):
+            check.add(raw, name, f'applies_if compares the date "{ref.name}" with the number {shown}',
+                      'write the date in quotes as "YYYY-MM-DD"')
+        elif ref.type == "date" and not _is_iso_date(literal):
+            check.add(raw, name, f'applies_if compares the date "{ref.name}" with {shown}',
+                      'write the date as "YYYY-MM-DD", whatever the date format on paper')
+        elif ref.codes and op in ("=", "!=", "in", "not in"):
+            text = _num(literal) if isinstance(literal, float) else literal
+            allowed, valid = canonical_series(ref, pd.Series([*ref.code_values, *ref.missing_values],
+                                                             dtype=object))
+            canon = canonical_series(ref, pd.Series([text], dtype=object))[0].iloc[0]
+            # Unreadable codes are reported on their own row; do not pile on here.
+            if valid.all() and canon not in set(allowed):
+                check.add(raw, name, f'applies_if compares "{ref.name}" with {shown}, which is not '
+                          f"one of its codes ({', '.join(ref.code_values)})",
+                          "use one of its codes or declared missing codes")
+
+
+def _is_iso_date(text: str) -> bool:
+    try:
+        return datetime.strptime(text, "%Y-%m-%d").strftime("%Y-%m-%d") == text
+    except ValueError:
+        return False
 
 
 def _settle_scales(check: _Checker, variables, raws, rows) -> list[Variable]:

@@ -354,6 +354,22 @@ class Condition:
                 out.extend((node.name, lit.value) for lit in node.literals)
         return tuple(out)
 
+    @property
+    def tests(self) -> tuple[tuple[str, str, tuple[float | str, ...]], ...]:
+        """``(variable, operator, literals)`` of every comparison; ``in`` and ``not in`` included.
+
+        >>> parse_condition("pet = 1 and kind not in ('cat', 'dog')").tests
+        (('pet', '=', (1.0,)), ('kind', 'not in', ('cat', 'dog')))
+        """
+        out = []
+        for node in _walk(self.tree):
+            if isinstance(node, _Compare):
+                out.append((node.name, node.op, (node.literal.value,)))
+            elif isinstance(node, _In):
+                out.append((node.name, "not in" if node.negate else "in",
+                            tuple(lit.value for lit in node.literals)))
+        return tuple(out)
+
     def __str__(self) -> str:
         return str(self.tree)
 

@@ -16,6 +16,7 @@ from hypothesis import given, settings
 
 from core.codebook import Code, Codebook, Variable
 from core.codebook_io import (
+    codebook_from_grid,
     codebook_from_table_schema,
     diff_codebooks,
     load_codebook,
@@ -66,6 +67,9 @@ EXPECTED = {
                                "(names are case-sensitive)."],
     "applies_if_later.csv": ['applies_if_later.csv row 4 ("pet"): applies_if names "pet_kind", a later '
                              "variable — a condition may only use variables that come earlier on the form."],
+    "applies_if_not_a_code.csv": ['applies_if_not_a_code.csv row 5 ("pet_kind"): applies_if compares '
+                                  '"pet" with 2, which is not one of its codes (0, 1) — use one of its '
+                                  "codes or declared missing codes."],
     "applies_if_quoted_number.csv": ['applies_if_quoted_number.csv row 5 ("pet_kind"): applies_if '
                                      'compares the integer "pet" with quoted text "yes" — write the '
                                      "number without quotes."],
@@ -156,6 +160,20 @@ def test_command_line_prints_the_problem_and_exits_2(name, capsys, tmp_path):
     err = capsys.readouterr().err
     assert status == 2
     assert EXPECTED[name][0] in err and "Traceback" not in err
+
+
+def test_date_in_a_condition_is_written_iso_whatever_the_paper_format():
+    grid = [(1, ["name", "type", "id", "format", "applies_if"]),
+            (2, ["pid", "string", "yes", "", ""]),
+            (3, ["visit", "date", "", "%d.%m.%Y", ""]),
+            (4, ["late", "string", "", "", "visit >= '01.02.2024'"]),
+            (5, ["early", "string", "", "", "visit < '2024-02-01'"])]
+    with pytest.raises(CodebookError) as info:
+        codebook_from_grid(grid, "cb.csv")
+    assert info.value.problems == [
+        'cb.csv row 4 ("late"): applies_if compares the date "visit" with "01.02.2024" — write the '
+        'date as "YYYY-MM-DD", whatever the date format on paper.'
+    ]
 
 
 # --------------------------------------------------------------------------- awkward files

@@ -143,4 +143,6 @@ def test_bad_syntax_is_a_clear_value_error(text, words):
 
 
 def test_literals_listed_for_type_checks():
-    assert parse_condition("a in (1, 'x') or b < 2.5").literals == (("a", 1.0), ("a", "x"), ("b", 2.5))
+    cond = parse_condition("a in (1, 'x') or not b < 2.5 and c not in (-1)")
+    assert cond.literals == (("a", 1.0), ("a", "x"), ("b", 2.5), ("c", -1.0))
+    assert cond.tests == (("a", "in", (1.0, "x")), ("b", "<", (2.5,)), ("c", "not in", (-1.0,)))

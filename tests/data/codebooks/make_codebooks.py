@@ -57,6 +57,7 @@ BAD_CSV = {
     "applies_if_syntax.csv": variant(5, "pet_kind,Which pet,string,no,,,,,no,no,1,,no,pet == 1,"),
     "applies_if_unknown.csv": variant(5, "pet_kind,Which pet,string,no,,,,,no,no,1,,no,pets = 1,"),
     "applies_if_later.csv": variant(4, "pet,Do you own a pet,integer,no,,,0=no; 1=yes,,no,no,1,,no,pet_kind = 'dog',"),
+    "applies_if_not_a_code.csv": variant(5, "pet_kind,Which pet,string,no,,,,,no,no,1,,no,pet = 2,"),
     "applies_if_quoted_number.csv": variant(5, "pet_kind,Which pet,string,no,,,,,no,no,1,,no,pet = 'yes',"),
     "unknown_column.csv": variant(2, header=HEADER.replace("label", "lable")),
     "unrelated_column.csv": variant(2, header=HEADER + ",notes"),
