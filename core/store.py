@@ -65,9 +65,9 @@ MIGRATIONS: dict[int, list[str]] = {
         "created_at VARCHAR(32) NOT NULL, updated_at VARCHAR(32) NOT NULL, "
         "finished_at VARCHAR(32), dropped INTEGER NOT NULL DEFAULT 0, "
         "source TEXT NOT NULL DEFAULT '', participant TEXT, entered INTEGER NOT NULL DEFAULT 0, "
-        # texts/states: the form's current values in codebook order (a JSON
-        # array; one character per state), repeated from form_values so a
-        # whole pass loads in one read.
+        # texts/states: the form's current values in codebook order (texts
+        # joined by U+001F; one character per state), repeated from
+        # form_values so a whole pass loads in one read.
         "texts TEXT NOT NULL, states TEXT NOT NULL, UNIQUE (pass_no, serial))",
         "CREATE TABLE form_values (form_id INTEGER NOT NULL REFERENCES forms (form_id), "
         "variable VARCHAR(64) NOT NULL, text TEXT NOT NULL, state VARCHAR(16) NOT NULL "
@@ -436,7 +436,11 @@ class Study:
                                "the values table")  # fmt: skip
         if bad is not None:
             return bad
-        copies = [self.load_pass(n, include_dropped=True) for n in (1, 2)]
+        try:
+            copies = [self.load_pass(n, include_dropped=True) for n in (1, 2)]
+        except StoreError:
+            return None, ("a form's copy of its values does not fit the codebook — the file was "
+                          "changed outside keyproof; compare it with a backup.")  # fmt: skip
         text = pd.concat([c.text for c in copies]).reindex(index)
         state = pd.concat([c.state for c in copies]).reindex(index)
         width = len(names)
@@ -561,7 +565,7 @@ class Study:
         entered = (state != None).sum(axis=1)  # noqa: E711 - elementwise on an object array
         cur.executemany(
             "UPDATE forms SET texts = ?, states = ?, participant = ?, entered = ? WHERE form_id = ?",
-            zip(_rows_json(text), _state_codes(state), list(participant),
+            zip(_join_rows(text), _state_codes(state), list(participant),
                 entered.tolist(), ids, strict=True),
         )  # fmt: skip
 
@@ -587,7 +591,7 @@ class Study:
         at = utc_now()
         done = at if finished else None  # an imported form arrives complete
         width = len(self._fresh_codebook(cur))
-        texts, states = _dumps([None] * width), _NOT_KEYED * width
+        texts, states = _SEP.join([""] * width), _NOT_KEYED * width
         rows = [
             (first_id + i, pass_no, top + 1 + i, keyer, at, at, done, source, texts, states)
             for i in range(n)
@@ -638,14 +642,14 @@ class Study:
                     (text, state, form_id, variable),
                 )
             at = self._positions[variable]
-            texts = json.loads(form[1])
+            texts = form[1].split(_SEP)
             texts[at] = text
             states = form[2][:at] + _STATE_CODE[state] + form[2][at + 1 :]
             is_id = codebook[variable].is_id
             cur.execute(
                 "UPDATE forms SET updated_at = ?, texts = ?, states = ?, entered = ?"
                 + (", participant = ?" if is_id else "") + " WHERE form_id = ?",
-                (utc_now(), _dumps(texts), states, len(states) - states.count(_NOT_KEYED),
+                (utc_now(), _SEP.join(texts), states, len(states) - states.count(_NOT_KEYED),
                  *((text,) if is_id else ()), form_id),
             )  # fmt: skip
             self._journal(cur, keyer, "set_value", form_id=form_id, variable=variable,
@@ -795,6 +799,14 @@ class Study:
         names = list(texts.columns)
         present = texts.notna().to_numpy()
         text = texts.astype("string").fillna("")
+        for c in names:
+            hit = text[c].str.contains(_SEP, regex=False).to_numpy()
+            if hit.any():
+                r = int(np.argmax(hit))
+                raise StoreError(
+                    f"{self.name}: {what} row {r + 1} column \"{c}\" contains the control "
+                    "character U+001F — remove it from the file and import again."
+                )
         empty = text.apply(lambda col: col.str.strip().eq("")).to_numpy()
         text_arr = text.to_numpy(dtype=object)
         if states is None:
@@ -847,7 +859,7 @@ class Study:
             cur.executemany(
                 "UPDATE forms SET texts = ?, states = ?, participant = ?, entered = ? "
                 "WHERE form_id = ?",
-                zip(_rows_json(full_text), _state_codes(full_state), participant.tolist(),
+                zip(_join_rows(full_text), _state_codes(full_state), participant.tolist(),
                     present.sum(axis=1).tolist(), ids, strict=True),
             )  # fmt: skip
             src = _dumps(source)
@@ -888,8 +900,9 @@ class Study:
                     cur.execute("COMMIT")
         index = pd.Index([f[0] for f in forms], name="form_id", dtype="int64")
         columns = pd.Index(names)
-        text = _decode_rows([f[3] for f in forms], len(names), self.name)
         state = _decode_states([f[4] for f in forms], len(names), self.name)
+        text = _split_rows([f[3] for f in forms], len(names), self.name)
+        text[pd.isna(state)] = None  # not keyed yet, as opposed to "" (blank)
         serial = pd.Series([f[1] for f in forms], index=index, dtype="int64")
         return PassData(
             pass_no=pass_no,
@@ -1007,6 +1020,9 @@ class Study:
 # -- helpers -------------------------------------------------------------
 
 
+#: Separates the texts in a form's copy; refused inside keyed text (U+001F, "unit separator").
+_SEP = "\x1f"
+
 #: Field states in a form's copy: one ASCII character each, "." = not keyed yet.
 _STATE_CODE = {KEYED: "k", BLANK: "b", ILLEGIBLE: "i"}
 _NOT_KEYED = "."
@@ -1015,28 +1031,29 @@ for _state, _code in _STATE_CODE.items():
     _STATE_LOOKUP[ord(_code)] = _state
 
 
-def _rows_json(grid: np.ndarray) -> list[str]:
-    """One compact JSON array per row of an object grid (None -> null)."""
-    return [json.dumps(row, ensure_ascii=False, separators=(",", ":")) for row in grid.tolist()]
+def _join_rows(grid: np.ndarray) -> list[str]:
+    """One string per row of a text grid: the texts joined by _SEP, None as ""."""
+    filled = np.where(pd.isna(grid), "", grid)
+    return [_SEP.join(row) for row in filled.tolist()]
 
 
-def _decode_rows(blobs: list[str], width: int, name: str) -> np.ndarray:
-    """The inverse of :func:`_rows_json` for many rows in one ``json.loads``."""
-    grid = np.full((len(blobs), width), None, dtype=object)
-    if blobs:
-        # Millions of new strings would trigger the cyclic collector again and
-        # again for nothing (strings hold no references); pause it meanwhile.
+def _split_rows(blobs: list[str], width: int, name: str) -> np.ndarray:
+    """The inverse of :func:`_join_rows` for many rows with one ``str.split``."""
+    grid = np.full(len(blobs) * width, None, dtype=object)
+    if blobs and width:
+        # Millions of new strings would wake the cyclic collector again and again
+        # for nothing (strings hold no references); pause it meanwhile.
         was = gc.isenabled()
         gc.disable()
         try:
-            rows = json.loads("[" + ",".join(blobs) + "]")
+            flat = _SEP.join(blobs).split(_SEP)
         finally:
             if was:
                 gc.enable()
-        if any(len(r) != width for r in rows):
+        if len(flat) != len(grid):
             raise StoreError(f"{name}: a form's stored values do not fit the codebook — run keyproof audit.")
-        grid[:, :] = rows
-    return grid
+        grid[:] = flat
+    return grid.reshape(len(blobs), width)
 
 
 def _state_codes(grid: np.ndarray) -> list[str]:
@@ -1109,6 +1126,11 @@ def _normalise(text: str | None, state: str, variable: str, name: str) -> tuple[
             f"{name}: state \"{state}\" for \"{variable}\" is unknown — use keyed, blank or illegible."
         )
     text = "" if text is None else str(text)
+    if _SEP in text:
+        raise StoreError(
+            f"{name}: the text for \"{variable}\" contains the control character U+001F — "
+            "remove it and key the value again."
+        )
     if state == KEYED and not text.strip():
         return "", BLANK
     if state in (BLANK, ILLEGIBLE):

@@ -335,11 +335,23 @@ def test_error_messages(tmp_path, study):
 def test_audit_catches_a_forms_copy_changed_behind_journal(study):
     ids = study.import_pass(1, "AB", pd.DataFrame({"pid": ["1"], "age": ["30"], "note": ["x"]}))
     con = raw(study)
-    # The copy is a JSON array in codebook order (pid, age, q1, note).
-    con.execute("UPDATE forms SET texts = ? WHERE form_id = ?", (json.dumps(["1", "31", None, "x"]), ids[0]))
+    # The copy holds the texts in codebook order (pid, age, q1, note) joined by U+001F.
+    con.execute("UPDATE forms SET texts = ? WHERE form_id = ?", ("\x1f".join(["1", "31", "", "x"]), ids[0]))
     con.commit()
     result = Study.open(study.path, readonly=True).audit()
     assert not result.ok and 'field "age"' in result.message and "copies" in result.message
+    con.execute("UPDATE forms SET texts = 'garbage' WHERE form_id = ?", (ids[0],))
+    con.commit()
+    result = Study.open(study.path, readonly=True).audit()
+    assert not result.ok and "does not fit the codebook" in result.message
+
+
+def test_unit_separator_refused_in_keyed_text(study):
+    f = study.start_form(1, "AB")
+    with pytest.raises(StoreError, match="U\\+001F"):
+        study.set_value(f, "note", "a\x1fb", "keyed", "AB")
+    with pytest.raises(StoreError, match='row 2 column "note" contains the control character'):
+        study.import_pass(1, "AB", pd.DataFrame({"pid": ["1", "2"], "note": ["ok", "a\x1fb"]}))
 
 
 def test_forward_migration_and_newer_schema(study, monkeypatch):
