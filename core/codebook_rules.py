@@ -124,7 +124,7 @@ def build_codebook(rows: list[RawRow], source: str = "", problems: list[str] | N
     _check_names_unique(check, variables, raws)
     _check_id(check, variables, raws, label)
     _check_conditions(check, variables, raws)
-    variables = _settle_scales(check, variables, raws, rows)
+    variables = _settle_scales(check, variables, raws)
     if not rows:
         check.problems.append(f"{label} lists no variables — add one row per variable under the header.")
     if check.problems:
@@ -142,7 +142,6 @@ def _text(raw: RawRow, column: str) -> str:
 
 def _variable(check: _Checker, raw: RawRow) -> Variable | None:
     name = _text(raw, "name")
-    before = len(check.problems)
     if not name:
         check.add(raw, "", "the name is blank", "give the variable a name or delete the row")
     elif not NAME_RE.match(name):
@@ -193,7 +192,7 @@ def _variable(check: _Checker, raw: RawRow) -> Variable | None:
     if flags["id"] and _text(raw, "applies_if"):
         check.add(raw, name, "the participant ID cannot have an applies_if condition",
                   "clear applies_if for the ID")
-    if len(check.problems) > before and not name:
+    if not name:  # already reported; a nameless row cannot take part in the checks across rows
         return None
     return Variable(
         name=name, type=type_, label=_text(raw, "label"), is_id=flags["id"],
@@ -440,7 +439,7 @@ def _is_iso_date(text: str) -> bool:
         return False
 
 
-def _settle_scales(check: _Checker, variables, raws, rows) -> list[Variable]:
+def _settle_scales(check: _Checker, variables, raws) -> list[Variable]:
     """Give every item of a scale the scale's one score method and min_answered."""
     settings: dict[str, dict[str, tuple[object, RawRow]]] = {}
     for var, raw in zip(variables, raws, strict=True):
