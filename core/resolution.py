@@ -212,6 +212,64 @@ def open_rows(rows: pd.DataFrame) -> pd.DataFrame:
     return rows[rows["_status"] != SETTLED]
 
 
+def counts_by_kind(rows: pd.DataFrame) -> dict[str, int]:
+    """Open (or stale) rows per kind, largest first: the worklist's headline.
+
+    >>> counts_by_kind(pd.DataFrame({"kind": ["blank", "mismatch", "mismatch"],
+    ...                              "_status": ["open", "open", "stale"]}))
+    {'mismatch': 2, 'blank': 1}
+    """
+    found = open_rows(rows)["kind"].value_counts()
+    return {str(k): int(v) for k, v in found.items()}
+
+
+def next_open(rows: pd.DataFrame, start: int = 0) -> int | None:
+    """Position of the first open or stale row at or after ``start``; None when none is left.
+
+    >>> next_open(pd.DataFrame({"_status": ["settled", "open", "stale"]}), 2)
+    2
+    """
+    waiting = np.flatnonzero(rows["_status"].to_numpy(dtype=object)[start:] != SETTLED)
+    return int(waiting[0]) + start if len(waiting) else None
+
+
+def position_of(rows: pd.DataFrame, participant: str) -> int | None:
+    """Position of the first row of ``participant`` (as shown), for jumping to a form.
+
+    >>> position_of(pd.DataFrame({"participant": ["3", "7", "7"]}), " 7")
+    1
+    """
+    hits = np.flatnonzero(rows["participant"].astype(str).to_numpy() == str(participant).strip())
+    return int(hits[0]) if len(hits) else None
+
+
+def neighbours(study, row, width: int = 3) -> pd.DataFrame:
+    """Fields around ``row``'s field, as both passes keyed them, in paper order.
+
+    Columns ``variable, pass1, pass2, here`` (``here`` marks the row's own
+    field), ``width`` fields either side: a field shift shows as one column
+    sliding against the other. Blank is ``""``, illegible ``(illegible)``,
+    not keyed None.
+
+    >>> neighbours(study, rows.iloc[0])             # doctest: +SKIP
+    """
+    names = study.codebook.names
+    name = _text(row, "variable")
+    at = names.index(name) if name in names else 0
+    around = names[max(0, at - width): at + width + 1]
+    sides = []
+    for form in _forms_of(row):
+        record = study.form(form) if form is not None else None
+        shown = []
+        for n in around:
+            state = record.states.get(n) if record else None
+            shown.append(None if state is None else
+                         ILLEGIBLE_SHOWN if state == ILLEGIBLE else record.texts.get(n, ""))
+        sides.append(shown)
+    return pd.DataFrame({"variable": around, "pass1": sides[0], "pass2": sides[1],
+                         "here": [n == name for n in around]})
+
+
 # --------------------------------------------------------------------------- reasons
 
 

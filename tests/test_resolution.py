@@ -13,13 +13,17 @@ from core.errors import DecisionError, OpenWorkError
 from core.resolution import (
     DEFAULT_REASONS,
     confirm_one_pass,
+    counts_by_kind,
     drop_duplicate,
     independence_warning,
     join_decisions,
     keep_value,
     keyed_by,
     mark_blank,
+    neighbours,
+    next_open,
     pair_forms,
+    position_of,
     reasons,
     reopen,
     restore,
@@ -510,3 +514,21 @@ def test_a_shift_with_a_value_outside_its_rule_is_refused_whole(study):
         settle_shift(study, "3", 1, "checked against paper: pass 1 right", "LM",
                      rows=worklist(study, _table(rows)))  # fmt: skip
     assert study.decisions().empty
+
+
+def test_neighbours_show_both_passes_side_by_side(study):
+    v = neighbours(study, _row(study, "3", "q3", cause="field_shift"), width=3)
+    # Paper order: pid, age, q1, q2, q3, q4, size, joined, note; three fields either side of q3.
+    assert v["variable"].tolist() == COLUMNS[1:8]
+    assert v["pass1"].tolist() == PASS1[2][1:8]
+    assert v["pass2"].tolist() == PASS2[2][1:8]  # q4 blank in pass 2 shows as ""
+    assert v["here"].tolist() == [False, False, False, True, False, False, False]
+
+
+def test_moving_through_the_worklist(study):
+    rows = _table(_differing_rows(study))
+    take_pass(study, rows.iloc[0], 1, "checked against paper: pass 1 right", "LM")
+    work = worklist(study, rows)
+    assert next_open(work) == 1 and next_open(work, 3) == 3 and next_open(work, 4) is None
+    assert position_of(work, "3") == 1 and position_of(work, "9") is None
+    assert counts_by_kind(work) == {"mismatch": 3}
