@@ -149,6 +149,9 @@ def _decode(path: Path) -> str:
     except OSError as exc:
         raise CodebookError(f"{path.name}: cannot be read ({exc.strerror}) — check the file "
                             "and its permissions.") from None
+    if data.startswith(b"PK\x03\x04"):  # the zip container every .xlsx file is
+        raise CodebookError(f"{path.name}: is a spreadsheet workbook, not CSV text — rename it to "
+                            ".xlsx, or save it from the spreadsheet as CSV.")
     if data.startswith(b"\xef\xbb\xbf"):
         try:
             return data[3:].decode("utf-8")

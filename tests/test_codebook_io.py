@@ -104,6 +104,8 @@ EXPECTED = {
     "duplicate_column.csv": ['duplicate_column.csv row 1: column "label" appears twice — keep one of them.'],
     "old_format.xls": ["old_format.xls: the old .xls format cannot be read — save it as .xlsx (Excel "
                        "workbook) or .csv and try again."],
+    "workbook_named_csv.csv": ["workbook_named_csv.csv: is a spreadsheet workbook, not CSV text — "
+                               "rename it to .xlsx, or save it from the spreadsheet as CSV."],
     "many_problems.csv": [
         'many_problems.csv row 3 ("age"): min 99 is greater than max 16 — swap them or fix the typo.',
         'many_problems.csv row 4 ("Age"): the name repeats row 3 ("age"), ignoring case — rename one '

@@ -134,6 +134,8 @@ def write_bad() -> None:
     (BAD / "old_format.xls").write_bytes(b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1")
     # XLSX: min > max with numbers stored as floats.
     _workbook(_grid(BAD_CSV["min_greater_than_max.csv"])).save(BAD / "min_greater_than_max.xlsx")
+    # A workbook saved under a .csv name.
+    (BAD / "workbook_named_csv.csv").write_bytes((BAD / "min_greater_than_max.xlsx").read_bytes())
     # XLSX: a formula the spreadsheet never calculated (openpyxl saves no result).
     rows = _grid(variant(2))
     rows[2][5] = "=90+9"
