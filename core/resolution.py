@@ -47,6 +47,7 @@ from __future__ import annotations
 import json
 from collections.abc import Callable, Iterable
 from pathlib import Path
+from zipfile import BadZipFile
 
 import numpy as np
 import pandas as pd
@@ -855,7 +856,7 @@ def _read_decisions(path: Path) -> pd.DataFrame:
             raise DecisionError(f"{path.name} is neither .csv nor .xlsx — save it as one of them.")
     except DecisionError:
         raise
-    except (UnicodeDecodeError, ValueError, OSError, pd.errors.ParserError) as exc:
+    except (UnicodeDecodeError, ValueError, OSError, KeyError, BadZipFile, pd.errors.ParserError) as exc:
         raise DecisionError(f"{path.name} could not be read as a table ({exc}) — save it as UTF-8 CSV or XLSX.") from None
     table.columns = [str(c).strip().lower() for c in table.columns]
     for col in _FILE_COLUMNS:

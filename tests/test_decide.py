@@ -158,3 +158,13 @@ def test_command_exit_status_and_message(study, tmp_path, capsys):
     assert decide.run(argparse.Namespace(study=args.study, keyer="LM", source=str(part))) == 1
     rest = _write(tmp_path, "3,q1,2,checked\n3,note,x,checked\n", "rest.csv")
     assert decide.run(argparse.Namespace(study=args.study, keyer="LM", source=str(rest))) == 0
+
+
+def test_semicolons_and_a_broken_xlsx(study, tmp_path):
+    path = tmp_path / "semi.csv"
+    path.write_text("participant;variable;value;reason\n2;age;38;checked\n", encoding="utf-8")
+    assert apply_decisions_file(study, path, "LM") == 1
+    broken = tmp_path / "broken.xlsx"
+    broken.write_text("participant,variable,value,reason\n", encoding="utf-8")
+    with pytest.raises(DecisionError, match=r"^broken.xlsx could not be read as a table"):
+        apply_decisions_file(study, broken, "LM")
