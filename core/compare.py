@@ -281,17 +281,19 @@ def _participants(idvar: Variable, p: PassData) -> pd.Series:
     """Canonical participant ID per form ("" when the ID is blank, illegible or not keyed)."""
     keyed = (p.state[idvar.name].astype(object) == KEYED).to_numpy(dtype=bool)
     texts = p.text[idvar.name].astype(object).where(keyed, None)
+    plain = texts[keyed]
+    if idvar.type == "integer" and plain.str.fullmatch(r"0|[1-9][0-9]*").all():
+        return texts.where(keyed, "").astype(object)  # already canonical: skip the rules
     canon, _ = canonical_series(idvar, texts)
     return canon.where(keyed, "").fillna("").astype(object)
 
 
 def _state_codes(state: pd.DataFrame) -> np.ndarray:
-    s = state.to_numpy(dtype=object)
-    out = np.full(s.shape, _N, dtype=np.int8)
-    out[s == KEYED] = _K
-    out[s == BLANK] = _B
-    out[s == ILLEGIBLE] = _I
-    return out
+    # Hashing the few distinct states beats comparing every cell with each state.
+    codes, uniques = pd.factorize(state.to_numpy(dtype=object).ravel())
+    lookup = np.array([{KEYED: _K, BLANK: _B, ILLEGIBLE: _I}.get(u, _N) for u in uniques] + [_N],
+                      dtype=np.int8)
+    return lookup[codes].reshape(state.shape)
 
 
 def _shown(text: np.ndarray, state: np.ndarray) -> np.ndarray:
@@ -515,7 +517,7 @@ def _detail(var: Variable, kind: int, pa: int, pb: int, cond_a: bool, cond_b: bo
             return "both values fit the codebook"
         words = {p: _BREAKS[p].format(type=var.type) for p in (pa, pb) if p}
         if pa and pb:
-            return f"both break the codebook: pass 1 {words[pa]}, pass 2 {words[pb]} ({allowed})"
+            return f"both break the codebook ({allowed}): pass 1 {words[pa]}; pass 2 {words[pb]}"
         bad, good = (1, 2) if pa else (2, 1)
         return f"pass {bad} {words[pa or pb]} ({allowed}); pass {good} fits"
     if kind == _KIND_CODE["not_applicable"]:

@@ -54,12 +54,12 @@ def field_keys(text: pd.DataFrame, state: pd.DataFrame) -> np.ndarray:
     >>> field_keys(t, s).tolist()
     [['keyed:3'], ['blank:']]
     """
-    keys = {}
-    for col in text.columns:
-        st = state[col].astype(object).where(state[col].notna(), "none").astype(str)
-        tx = text[col].astype(object).where(text[col].notna(), "").astype(str).str.strip()
-        keys[col] = st + ":" + tx
-    return pd.DataFrame(keys, index=text.index).to_numpy(dtype=object)
+    st = state.to_numpy(dtype=object)
+    tx = text.to_numpy(dtype=object)
+    # Unpaired forms are few, so a plain comprehension over their cells is cheap.
+    keys = [f"{'none' if s is None or s != s else s}:{'' if t is None or t != t else str(t).strip()}"
+            for s, t in zip(st.ravel(), tx.ravel(), strict=True)]
+    return np.array(keys, dtype=object).reshape(tx.shape)
 
 
 def suggest(
