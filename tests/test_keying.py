@@ -335,3 +335,17 @@ async def test_an_id_keyed_with_a_leading_zero_finds_the_form(tmp_path):
     async with app.run_test(size=SIZE) as pilot:
         await pilot.press(*field_keys(["7", "AK"]), "escape", *field_keys(["07"]))
         assert app.screen.model.mode == "choose"
+
+
+@sync
+async def test_a_warned_id_stays_in_the_editor_and_a_second_enter_keeps_it(tmp_path):
+    path = make_study(tmp_path)
+    app = make_app(path, mode="key", pass_no=1, keyer="AB")
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press(*keys_for("7b"), "enter")
+        assert app.screen.model.mode == ID_MODE
+        assert app.screen.editor.value == "7b"  # member_id is an integer: warned, not lost
+        await pilot.press("enter")
+        assert app.screen.model.mode == FIELD_MODE
+    (form,) = stored(path)
+    assert form.participant == "7b"

@@ -20,10 +20,10 @@ from textual.widgets.option_list import Option
 WAYS_ON = (
     ("key-1", "1  key pass 1", "key_1"),
     ("key-2", "2  key pass 2", "key_2"),
-    ("resolve", "r  resolve discrepancies against the paper", "resolve"),
+    ("resolve", "r  resolve discrepancies", "resolve"),
     ("export", "e  export the verified file", "export"),
-    ("report", "p  write the verification report", "report"),
-    ("screen", "s  screening before analysis", "screen"),
+    ("report", "p  verification report", "report"),
+    ("screen", "s  screening", "screen"),
 )
 
 

@@ -159,13 +159,17 @@ class KeyingScreen(Screen):
         return value, self._flags.get(index, "")
 
     def _sync(self, reload: bool = False) -> None:
+        """Repaint after the model acted; the editor is reloaded only when the place changed.
+
+        A warning leaves the keyer's text in the editor (so a second Enter keeps it).
+        """
         m = self.model
         shown = (m.mode, m.form_id, m.cursor)
         if m.mode == REVIEW_MODE:
             self._flags = {f.index: f.text for f in m.flags()}
         elif self._flags:
             self._flags = {}
-        if reload:
+        if reload and shown != self._shown:
             self._load_editor()
         if shown[:2] != (self._shown or (None, None))[:2] or m.mode == REVIEW_MODE:
             self.field_list.refresh()  # new form or review flags: repaint the visible window
@@ -224,7 +228,8 @@ class KeyingScreen(Screen):
                     f"{flagged}.\nEnter finishes the form · ↑ goes back to its fields · "
                     "Esc leaves it unfinished.")
         var = m.variables[m.cursor]
-        section = f"{var.section} · " if var.section else ""
+        page = f"page {var.section}" if var.section.isdigit() else var.section
+        section = f"{page} · " if page else ""
         skipped = "" if m.applies(m.cursor) else f"\nskipped: {var.applies_if} is false"
         return (f"{section}{var.name}  {var.label}\nallowed: {m.allowed[m.cursor]}"
                 f"{' · required' if var.required else ''}{skipped}")

@@ -60,7 +60,9 @@ class FieldList(ScrollView, can_focus=False):
         last = None
         for i, section in enumerate(sections):
             if section and section != last:
-                self._rows.append(Row(None, f" {section} "))
+                # A bare number is a page of the paper form.
+                title = f"page {section}" if section.isdigit() else section
+                self._rows.append(Row(None, f" {title} "))
             last = section
             self._line_of.append(len(self._rows))
             self._rows.append(Row(i))
