@@ -29,7 +29,7 @@ import io
 from datetime import date, datetime, time
 from pathlib import Path
 
-from .codebook import COLUMNS, Codebook
+from .codebook import COLUMNS, DEFAULT_MIN_ANSWERED, Codebook, Variable
 from .codebook_diff import CodebookDiff, VariableChange, diff_codebooks
 from .codebook_rules import RawRow, build_codebook, unknown_column_problem
 from .codebook_schema import (
@@ -45,9 +45,11 @@ __all__ = [
     "VariableChange",
     "codebook_from_grid",
     "codebook_from_table_schema",
+    "codebook_rows",
     "diff_codebooks",
     "load_codebook",
     "to_table_schema",
+    "write_codebook_csv",
     "write_table_schema",
 ]
 
@@ -138,6 +140,64 @@ def _letter(index: int) -> str:
     from openpyxl.utils import get_column_letter
 
     return get_column_letter(index + 1)
+
+
+# --------------------------------------------------------------------------- writing
+
+
+def codebook_rows(codebook: Codebook) -> list[dict[str, str]]:
+    """The codebook in DESIGN.md's tabular form: one dict of cell texts per variable.
+
+    Scale settings are written on every item of a scale only when they differ
+    from the defaults. A code label holding ``;`` or ``=`` cannot be written
+    in this form (the Table Schema keeps it).
+
+    >>> from core.codebook import Code, Codebook, Variable
+    >>> row = codebook_rows(Codebook((Variable("q", "integer", codes=(Code("1", "no"),)),)))[0]
+    >>> row["codes"], row["required"]
+    ('1=no', 'no')
+    """
+    return [_row(v) for v in codebook.variables]
+
+
+def write_codebook_csv(codebook: Codebook, path) -> Path:
+    """Write :func:`codebook_rows` as a UTF-8 CSV that :func:`load_codebook` reads back equal.
+
+    >>> import tempfile, pathlib
+    >>> from core.codebook import Codebook, Variable
+    >>> p = pathlib.Path(tempfile.mkdtemp()) / "codebook.csv"
+    >>> cb = Codebook((Variable("pid", is_id=True, required=True),))
+    >>> load_codebook(write_codebook_csv(cb, p)) == cb
+    True
+    """
+    from .atomic import atomic_text
+
+    out = io.StringIO()
+    writer = csv.DictWriter(out, fieldnames=list(COLUMNS), lineterminator="\n")
+    writer.writeheader()
+    writer.writerows(codebook_rows(codebook))
+    return atomic_text(path, out.getvalue())
+
+
+def _row(v: Variable) -> dict[str, str]:
+    def yes(flag: bool) -> str:
+        return "yes" if flag else "no"
+
+    def bound(x: float | None) -> str:
+        return "" if x is None else (str(int(x)) if float(x).is_integer() else repr(float(x)))
+
+    def codes(items) -> str:
+        return "; ".join(f"{c.value}={c.label}" if c.label else c.value for c in items)
+
+    custom = v.scale and (v.score, v.min_answered) != ("mean", DEFAULT_MIN_ANSWERED)
+    return {
+        "name": v.name, "label": v.label, "type": v.type, "id": yes(v.is_id),
+        "min": bound(v.min), "max": bound(v.max), "codes": codes(v.codes), "missing": codes(v.missing),
+        "required": yes(v.required), "identifying": yes(v.identifying), "section": v.section,
+        "scale": v.scale, "reverse": yes(v.reverse), "applies_if": v.applies_if,
+        "width": "" if v.width is None else str(v.width), "format": v.format,
+        "score": v.score if custom else "", "min_answered": repr(v.min_answered) if custom else "",
+    }
 
 
 # --------------------------------------------------------------------------- CSV

@@ -21,6 +21,7 @@ from core.codebook_io import (
     diff_codebooks,
     load_codebook,
     to_table_schema,
+    write_codebook_csv,
     write_table_schema,
 )
 from core.errors import CodebookError
@@ -262,6 +263,7 @@ def test_written_table_schema_is_valid_and_reads_back_equal(path, tmp_path):
     assert report.valid, report.flatten(["type", "note"])
     back = load_codebook(written)
     assert back == cb and back.hash == cb.hash
+    assert load_codebook(write_codebook_csv(cb, tmp_path / "again.csv")) == cb
 
 
 def test_table_schema_means_what_the_codebook_means(tmp_path):
@@ -425,6 +427,14 @@ def _codebooks(draw):
     variables = [replace(v, score=scale_settings[v.scale][0], min_answered=scale_settings[v.scale][1])
                  if v.scale else v for v in variables]
     return Codebook(tuple(variables))
+
+
+@settings(max_examples=25, deadline=None)
+@given(_codebooks())
+def test_any_valid_codebook_survives_the_tabular_form(tmp_path_factory, cb):
+    # Labels here hold neither ";" nor "=", which the tabular codes syntax reserves.
+    path = write_codebook_csv(cb, tmp_path_factory.mktemp("cb") / "codebook.csv")
+    assert load_codebook(path) == cb
 
 
 @settings(max_examples=40, deadline=None)
