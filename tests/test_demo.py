@@ -139,3 +139,13 @@ def test_demo_command_line_twice_exits_2(tmp_path, capsys):
     assert main(["demo", str(tmp_path), "--no-open"]) == 2
     err = capsys.readouterr().err
     assert err.count("\n") == 1 and "already exists" in err and "Traceback" not in err
+
+
+def test_demo_command_opens_the_app_on_the_new_study(tmp_path, monkeypatch):
+    import tui.app
+
+    opened = []
+    monkeypatch.setattr(tui.app, "run_app", lambda path, **kw: opened.append(Path(path)) or 0)
+    args = argparse.Namespace(folder=str(tmp_path), no_open=False)
+    assert demo_command.run(args) == 0
+    assert opened == [tmp_path / STUDY_NAME]
