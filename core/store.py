@@ -797,18 +797,22 @@ class Study:
                 "its texts — pass both tables with the same shape."
             )
         names = list(texts.columns)
-        present = texts.notna().to_numpy()
-        text = texts.astype("string").fillna("")
-        for c in names:
-            hit = text[c].str.contains(_SEP, regex=False).to_numpy()
+        raw = texts.to_numpy(dtype=object)
+        present = ~pd.isna(raw)
+        text_arr = np.empty(raw.shape, dtype=object)
+        empty = np.zeros(raw.shape, dtype=bool)
+        # Column by column with numpy's string functions (C loops): pandas' own
+        # string methods call Python once per cell.
+        for j, c in enumerate(names):
+            col = np.where(present[:, j], raw[:, j], "").astype(str)
+            hit = np.strings.find(col, _SEP) >= 0
             if hit.any():
-                r = int(np.argmax(hit))
                 raise StoreError(
-                    f"{self.name}: {what} row {r + 1} column \"{c}\" contains the control "
-                    "character U+001F — remove it from the file and import again."
+                    f"{self.name}: {what} row {int(np.argmax(hit)) + 1} column \"{c}\" contains "
+                    "the control character U+001F — remove it from the file and import again."
                 )
-        empty = text.apply(lambda col: col.str.strip().eq("")).to_numpy()
-        text_arr = text.to_numpy(dtype=object)
+            empty[:, j] = np.strings.strip(col) == ""
+            text_arr[:, j] = col.astype(object)
         if states is None:
             state_arr = np.full(text_arr.shape, KEYED, dtype=object)
         else:
