@@ -207,6 +207,12 @@ def _decode(path: Path, encoding: str | None) -> tuple[str, list[str]]:
         return text.removeprefix("\ufeff"), []
     if raw.startswith(codecs.BOM_UTF8):
         return raw[len(codecs.BOM_UTF8):].decode("utf-8", errors="strict"), []
+    # A spreadsheet's "Unicode text" export is UTF-16 with a byte-order mark.
+    if raw.startswith((codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE)):
+        try:
+            return raw.decode("utf-16").removeprefix("\ufeff"), [f"{name}: read as UTF-16."]
+        except UnicodeDecodeError:
+            pass
     try:
         return raw.decode("utf-8"), []
     except UnicodeDecodeError:

@@ -353,3 +353,13 @@ def test_windows_line_endings(tmp_path):
     texts, notes = read_keyed_file(path, CB)
     assert texts.values.tolist() == ROWS and list(texts.index) == [2, 3]
     assert notes == []
+
+
+def test_utf16_unicode_text_export(tmp_path):
+    # A spreadsheet's "Unicode text" export: UTF-16 with a byte-order mark, tabs
+    # between cells; Python's utf-16 codec writes the reference bytes.
+    path = tmp_path / "u.txt"
+    path.write_bytes(csv_text(ROWS, sep="\t").encode("utf-16"))
+    texts, notes = read_keyed_file(path, CB)
+    assert texts.values.tolist() == ROWS
+    assert any("UTF-16" in n for n in notes) and any("tabs" in n for n in notes)
