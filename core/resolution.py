@@ -136,57 +136,70 @@ def join_decisions(table: pd.DataFrame, decisions: pd.DataFrame) -> pd.DataFrame
     >>> join_decisions(t, pd.DataFrame())["_status"].tolist()
     ['open']
     """
-    work = table.reset_index(drop=True).copy()
+    work = table.reset_index(drop=True)
     for col in ("participant", "variable", "kind", "pass1", "pass2"):
         if col not in work:
             work[col] = ""
-    keys = work[_KEY].astype("string").fillna("")
     newest = _newest(decisions)
+    n = len(work)
     if newest.empty:
-        for col in DECISION_COLUMNS:
-            work[col] = pd.NA
-        work["_status"] = OPEN
-        return _order(work)
-    right = newest.rename(
-        columns={
-            "decision_id": "_decision_id",
-            "action": "_decision_action",
-            "value": "_decision_value",
-            "state": "_decision_state",
-            "reason": "_decision_reason",
-            "keyer": "_decided_by",
-            "at": "_decided_at",
-            "pass1": "_seen1",
-            "pass2": "_seen2",
-        }
-    )[[*_KEY, *DECISION_COLUMNS, "_seen1", "_seen2"]]
-    # ``right`` holds one row per key (the newest), so the join keeps ``work``'s rows.
-    joined = keys.merge(right, on=_KEY, how="left")
-    for col in (*DECISION_COLUMNS, "_seen1", "_seen2"):
-        work[col] = joined[col].to_numpy()
-    decided = work["_decision_id"].notna()
-    now1 = work["pass1"].astype("string").fillna("")
-    now2 = work["pass2"].astype("string").fillna("")
-    seen1 = work["_seen1"].astype("string").fillna("")
-    seen2 = work["_seen2"].astype("string").fillna("")
-    changed = decided & ((now1 != seen1) | (now2 != seen2))
-    waiting = work["_decision_action"].isin([REOPEN, ONE_PASS_ONLY]).fillna(False)
-    status = pd.Series(OPEN, index=work.index, dtype=object)
-    status[decided & ~changed & ~waiting] = SETTLED
+        pos = np.full(n, -1, dtype=np.intp)
+    else:
+        # One row per key on the right, so a lookup by key is the whole join.
+        right = pd.MultiIndex.from_arrays([newest[c].to_numpy(dtype=object) for c in _KEY])
+        pos = right.get_indexer(pd.MultiIndex.from_arrays([_plain(work[c]) for c in _KEY]))
+    hit = pos >= 0
+    taken = {}
+    for src, dst in _DECISION_FIELDS.items():
+        out = np.full(n, None, dtype=object)
+        if hit.any():
+            out[hit] = newest[src].to_numpy(dtype=object)[pos[hit]]
+        taken[dst] = out
+    for dst in DECISION_COLUMNS:
+        # dtype=object spares pandas inferring a string dtype element by element.
+        work[dst] = pd.Series(taken[dst], index=work.index, dtype=object)
+    work["_decision_id"] = pd.array(taken["_decision_id"], dtype="Int64")
+    changed = hit & ((_plain(work["pass1"]) != taken["_seen1"])
+                     | (_plain(work["pass2"]) != taken["_seen2"]))
+    waiting = np.isin(taken["_decision_action"], [REOPEN, ONE_PASS_ONLY])
+    status = np.full(n, OPEN, dtype=object)
+    status[hit & ~changed & ~waiting] = SETTLED
     status[changed] = STALE
-    work["_status"] = status
-    return _order(work.drop(columns=["_seen1", "_seen2"]))
+    work["_status"] = pd.Series(status, index=work.index, dtype=object)
+    return _order(work)
+
+
+_DECISION_FIELDS = {
+    "decision_id": "_decision_id",
+    "action": "_decision_action",
+    "value": "_decision_value",
+    "state": "_decision_state",
+    "reason": "_decision_reason",
+    "keyer": "_decided_by",
+    "at": "_decided_at",
+    "pass1": "_seen1",
+    "pass2": "_seen2",
+}
+
+
+def _plain(column: pd.Series) -> np.ndarray:
+    """A column as an object array of str, missing as ``""``."""
+    if not pd.api.types.is_string_dtype(column.dtype):
+        column = column.astype("string")
+    return column.to_numpy(dtype=object, na_value="")
 
 
 def _newest(decisions: pd.DataFrame | None) -> pd.DataFrame:
     """The newest decision per (participant, variable, kind); oldest first."""
     if decisions is None or decisions.empty:
         return pd.DataFrame()
-    d = decisions.copy()
+    d = decisions
+    if not d["decision_id"].is_monotonic_increasing:
+        d = d.sort_values("decision_id", kind="stable")
+    d = d.drop_duplicates(_KEY, keep="last").reset_index(drop=True)
     for col in ("participant", "variable", "kind", "pass1", "pass2", "value", "state"):
-        d[col] = d[col].astype("string").fillna("")
-    d = d.sort_values("decision_id", kind="stable")
-    return d.drop_duplicates(_KEY, keep="last").reset_index(drop=True)
+        d[col] = _plain(d[col])
+    return d
 
 
 def _order(work: pd.DataFrame) -> pd.DataFrame:
