@@ -904,15 +904,15 @@ class Study:
                     cur.execute("COMMIT")
         index = pd.Index([f[0] for f in forms], name="form_id", dtype="int64")
         columns = pd.Index(names)
-        state = _decode_states([f[4] for f in forms], len(names), self.name)
+        state, unkeyed = _decode_states([f[4] for f in forms], len(names), self.name)
         text = _split_rows([f[3] for f in forms], len(names), self.name)
-        text[pd.isna(state)] = None  # not keyed yet, as opposed to "" (blank)
+        text[unkeyed] = None  # not keyed yet, as opposed to "" (blank)
         serial = pd.Series([f[1] for f in forms], index=index, dtype="int64")
         return PassData(
             pass_no=pass_no,
             # dtype=object keeps None (not keyed yet) apart from "" (blank).
-            text=pd.DataFrame(text, index=index, columns=columns, dtype=object),
-            state=pd.DataFrame(state, index=index, columns=columns, dtype=object),
+            text=pd.DataFrame(text, index=index, columns=columns, dtype=object, copy=False),
+            state=pd.DataFrame(state, index=index, columns=columns, dtype=object, copy=False),
             keyer=pd.Series([f[2] for f in forms], index=index, dtype="string"),
             label=("pass " + str(pass_no) + " form " + serial.astype(str)).astype("string"),
         )
@@ -1068,12 +1068,13 @@ def _state_codes(grid: np.ndarray) -> list[str]:
     return ["".join(row) for row in codes.tolist()]
 
 
-def _decode_states(blobs: list[str], width: int, name: str) -> np.ndarray:
-    """State grid from per-form code strings, with byte arithmetic: no per-cell Python."""
+def _decode_states(blobs: list[str], width: int, name: str) -> tuple[np.ndarray, np.ndarray]:
+    """State grid from per-form code strings, and where nothing is keyed yet;
+    byte arithmetic, no per-cell Python."""
     if any(len(b) != width for b in blobs):
         raise StoreError(f"{name}: a form's stored states do not fit the codebook — run keyproof audit.")
     codes = np.frombuffer("".join(blobs).encode("ascii"), dtype=np.uint8).reshape(len(blobs), width)
-    return _STATE_LOOKUP[codes]
+    return _STATE_LOOKUP[codes], codes == ord(_NOT_KEYED)
 
 
 def _grid(index: pd.Index, names: list[str], cells: list[tuple]) -> tuple[np.ndarray, np.ndarray]:
