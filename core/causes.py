@@ -216,8 +216,9 @@ def field_shift_cells(
     ``a`` and ``b`` hold comparable keys of the two passes (equal keys = equal
     values, blanks included), ``differ`` marks disagreeing cells and
     ``absent_*`` blank or not-keyed cells. A run is three or more consecutive
-    cells where ``b[j] == a[j+1]`` (pass 2 ran one field ahead) or ``b[j] ==
-    a[j-1]`` (pass 1 ran ahead) holding at least two disagreements; its
+    cells where pass 2 runs one field ahead (``b[j] == a[j+1]``, or ``a[j] ==
+    b[j-1]`` at the run's last cell) or pass 1 does (``a`` and ``b``
+    exchanged), holding at least two disagreements; its
     disagreeing cells are marked, plus the disagreeing cell just after the run
     when the pass that ran ahead left it blank.
 
@@ -230,10 +231,13 @@ def field_shift_cells(
     out = np.zeros((n, m), dtype=bool)
     if m < 3 or n == 0:
         return out
-    ahead_b = np.zeros((n, m), dtype=bool)  # pass 2 is one field ahead of pass 1
+    # Pass 2 one field ahead: b[k] == a[k+1]; its last cell shows as a[k] == b[k-1].
+    ahead_b = np.zeros((n, m), dtype=bool)
     ahead_b[:, :-1] = b[:, :-1] == a[:, 1:]
-    ahead_a = np.zeros((n, m), dtype=bool)  # pass 1 is one field ahead of pass 2
+    ahead_b[:, 1:] |= a[:, 1:] == b[:, :-1]
+    ahead_a = np.zeros((n, m), dtype=bool)
     ahead_a[:, :-1] = a[:, :-1] == b[:, 1:]
+    ahead_a[:, 1:] |= b[:, 1:] == a[:, :-1]
     for run_mask, absent_ahead in ((ahead_b, absent_b), (ahead_a, absent_a)):
         out |= _runs(run_mask, differ, absent_ahead)
     return out

@@ -63,7 +63,7 @@ def typed(var: Variable, values: pd.Series) -> pd.Series:
 # --------------------------------------------------------------------------- properties
 
 
-@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@settings(max_examples=15, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(two_passes())
 def test_a_pass_against_itself_has_no_mismatch(passes):
     p1, _ = passes
@@ -72,7 +72,7 @@ def test_a_pass_against_itself_has_no_mismatch(passes):
     assert not table["kind"].isin(["only_in_pass1", "only_in_pass2"]).any()
 
 
-@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@settings(max_examples=15, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(two_passes())
 def test_swapping_the_passes_swaps_pass1_and_pass2_and_nothing_else(passes):
     p1, p2 = passes
@@ -96,7 +96,7 @@ def test_swapping_the_passes_swaps_pass1_and_pass2_and_nothing_else(passes):
     assert [clauses(d, True) for d in ab["detail"]] == [clauses(d, False) for d in ba["detail"]]
 
 
-@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@settings(max_examples=15, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(two_passes())
 def test_every_cell_whose_typed_values_differ_appears_exactly_once(passes):
     p1, p2 = passes
