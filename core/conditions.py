@@ -340,21 +340,6 @@ class Condition:
         return tuple(seen)
 
     @property
-    def literals(self) -> tuple[tuple[str, float | str], ...]:
-        """``(variable, literal)`` pairs, so a loader can check literals against types.
-
-        >>> parse_condition('sex = "f" or age > 3').literals
-        (('sex', 'f'), ('age', 3.0))
-        """
-        out = []
-        for node in _walk(self.tree):
-            if isinstance(node, _Compare):
-                out.append((node.name, node.literal.value))
-            elif isinstance(node, _In):
-                out.extend((node.name, lit.value) for lit in node.literals)
-        return tuple(out)
-
-    @property
     def tests(self) -> tuple[tuple[str, str, tuple[float | str, ...]], ...]:
         """``(variable, operator, literals)`` of every comparison; ``in`` and ``not in`` included.
 
