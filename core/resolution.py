@@ -593,6 +593,27 @@ def independence_warning(study, participant: str, resolver: str) -> str | None:
     )
 
 
+def keyed_by_resolver(study, resolver: str, participants: Iterable[str] | None = None) -> list[str]:
+    """Participants (of ``participants``, else all) with a form ``resolver`` keyed.
+
+    One query for a whole decisions file or worklist, in natural ID order.
+
+    >>> keyed_by_resolver(study, "AB", ["17", "18"])   # doctest: +SKIP
+    ['17', '18']
+    """
+    forms = study.forms()
+    who = str(resolver).strip()
+    if forms.empty or not who:
+        return []
+    ids = _canonical_ids(study.codebook, forms["participant"]).to_numpy(dtype=object)
+    mine = (forms["keyer"].astype(str).str.strip() == who).to_numpy() & ~forms["dropped"].to_numpy(dtype=bool)
+    found = set(ids[mine]) - {""}
+    if participants is not None:
+        found &= {_canonical_id(study.codebook, p) for p in participants}
+    ordered = sorted(found)
+    return [ordered[i] for i in _natural_order(pd.Index(ordered, dtype=object))]
+
+
 # --------------------------------------------------------------------------- set aside
 
 

@@ -168,3 +168,12 @@ def test_semicolons_and_a_broken_xlsx(study, tmp_path):
     broken.write_text("participant,variable,value,reason\n", encoding="utf-8")
     with pytest.raises(DecisionError, match=r"^broken.xlsx could not be read as a table"):
         apply_decisions_file(study, broken, "LM")
+
+
+def test_decide_warns_when_the_resolver_keyed_a_pass(study, tmp_path, capsys):
+    study.close()
+    path = _write(tmp_path, "2,age,38,checked against paper: pass 1 right\n")
+    decide.run(argparse.Namespace(study=str(tmp_path / "s.sqlite"), keyer="AB", source=str(path)))
+    err = capsys.readouterr().err
+    # Barchard, Freeman, Ochoa & Stephens (2020): resolve against the paper, ideally by another person.
+    assert "AB keyed a pass of 1 of these participants (2); check each value against the paper" in err

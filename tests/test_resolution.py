@@ -19,6 +19,7 @@ from core.resolution import (
     join_decisions,
     keep_value,
     keyed_by,
+    keyed_by_resolver,
     mark_blank,
     neighbours,
     next_open,
@@ -287,6 +288,10 @@ def test_independence_warning_when_the_resolver_keyed_a_pass(study):
     warning = independence_warning(study, "2", "AB")
     assert warning is not None and "AB" in warning and "paper" in warning
     assert independence_warning(study, "2", "LM") is None
+    # AB keyed pass 1 of every form (the fixture above); natural ID order.
+    assert keyed_by_resolver(study, "AB") == ["1", "2", "3"]
+    assert keyed_by_resolver(study, "AB", ["03", "2"]) == ["2", "3"]
+    assert keyed_by_resolver(study, "LM") == []
 
 
 def test_set_aside_and_its_undo_are_journaled_and_leave_the_verified_table(study):

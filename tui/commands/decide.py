@@ -22,12 +22,29 @@ def configure(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from core.resolution import apply_decisions_file, counts_by_status, worklist
+    from core.resolution import (
+        apply_decisions_file,
+        counts_by_status,
+        keyed_by_resolver,
+        worklist,
+    )
     from core.store import Study
 
     with Study.open(args.study) as study:
+        before = len(study.decisions())
         applied = apply_decisions_file(study, args.source, args.keyer)
+        decided = study.decisions().iloc[before:]["participant"].unique()
+        own = keyed_by_resolver(study, args.keyer, decided)
         left = counts_by_status(worklist(study))
+    if own:
+        # Barchard, Freeman, Ochoa & Stephens (2020): errors left after double entry
+        # come from making the passes agree instead of checking the paper.
+        shown = ", ".join(own[:10]) + (", ..." if len(own) > 10 else "")
+        sys.stderr.write(
+            f"keyproof decide: {args.keyer.strip()} keyed a pass of {len(own)} of these "
+            f"participants ({shown}); check each value against the paper, not against the "
+            "other pass, or ask someone else to resolve them.\n"
+        )
     waiting = left["open"] + left["stale"]
     print(f"{applied} decision{'s' if applied != 1 else ''} recorded; "
           f"{waiting} discrepanc{'y' if waiting == 1 else 'ies'} still open.")
