@@ -28,6 +28,7 @@ Table Schema lists both spellings as missing values.
 
 from __future__ import annotations
 
+import functools
 import json
 import re
 from collections.abc import Callable
@@ -459,20 +460,14 @@ def table_schema(codebook: Codebook, names: list[str], kept: pd.DataFrame | None
     >>> table_schema(cb, ["pid", "q"])["fields"][1]["missingValues"]
     ['', '-9', '-9.0']
     """
-    from .codebook_io import to_table_schema
-
-    schema = dict(to_table_schema(codebook))
-    fields = {f["name"]: json.loads(json.dumps(f)) for f in schema.get("fields", [])}
+    schema, fields = _codebook_schema(codebook)
     schema["fields"] = [fields[n] for n in names]
     kept = _frame(kept, KEPT_COLUMNS)
     for f in schema["fields"]:
         var = codebook[f["name"]]
         constraints = f.setdefault("constraints", {})
         if var.missing:
-            spelled = list(var.missing_values) + list(
-                canonical_series(var, pd.Series(list(var.missing_values), dtype=object))[0]
-            )
-            f["missingValues"] = list(dict.fromkeys(["", *spelled]))
+            f["missingValues"] = _spelled_missing(var.type, var.format, var.missing_values)
         if var.is_id:
             constraints["required"] = True
         elif constraints.pop("required", False):
@@ -495,6 +490,46 @@ def table_schema(codebook: Codebook, names: list[str], kept: pd.DataFrame | None
         schema.pop("primaryKey", None)
     schema.setdefault("missingValues", [""])
     return schema
+
+
+@functools.lru_cache(maxsize=256)
+def _spelled_missing(type_: str, fmt: str, codes: tuple[str, ...]) -> list[str]:
+    """Missing codes as the codebook writes them and as the CSV prints them."""
+    var = Variable("x", type_, format=fmt)
+    printed = canonical_series(var, pd.Series(list(codes), dtype=object))[0]
+    return list(dict.fromkeys(["", *codes, *printed]))
+
+
+def _codebook_schema(codebook: Codebook) -> tuple[dict, dict[str, dict]]:
+    """The codebook's Table Schema and its fields by name, each field a fresh copy.
+
+    Questionnaires repeat the same rule over many items (300 five-point
+    items), and building a field parses every code, so the codebook module's
+    writer runs once per distinct rule; the other variables of that rule get
+    a copy with their own name and label.
+    """
+    from dataclasses import replace
+
+    from .codebook_io import to_table_schema
+
+    def rule(v: Variable) -> Variable:
+        return replace(v, name="", label="", row=None)
+
+    firsts: dict[Variable, Variable] = {}
+    for v in codebook:
+        firsts.setdefault(rule(v), v)
+    schema = dict(to_table_schema(Codebook(tuple(firsts.values()), source=codebook.source)))
+    template = {f["name"]: f for f in schema.get("fields", [])}
+    fields = {}
+    for v in codebook:
+        f: dict = {"name": v.name}
+        if v.label:
+            f["title"] = v.label
+        for key, value in template[firsts[rule(v)].name].items():
+            if key not in ("name", "title"):
+                f[key] = json.loads(json.dumps(value))
+        fields[v.name] = f
+    return schema, fields
 
 
 def _widen(var: Variable, constraints: dict, texts: list[str]) -> None:

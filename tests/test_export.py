@@ -317,3 +317,18 @@ def test_values_the_paper_really_shows_still_validate(tmp_path):
     bare = export(Verified(cb, data.assign(age=pd.array([150, 20, 40], dtype="Int64"))),
                   tmp_path / "bare")
     assert not validate(bare.path / "datapackage.json").valid
+
+
+def test_schema_fields_equal_the_codebook_modules_own_writer():
+    # Fields copied between variables that share a rule must be exactly what
+    # core.codebook_io.to_table_schema writes for each variable on its own.
+    from core.codebook_io import to_table_schema
+    from core.export import _codebook_schema
+
+    many = Codebook((*CODEBOOK.variables,
+                     Variable("q2", "integer", codes=FREQ, missing=(Code("9", "n/a"),)),
+                     Variable("q3", "integer", label="Again?", codes=FREQ,
+                              missing=(Code("9", "n/a"),))))
+    _, ours = _codebook_schema(many)
+    theirs = {f["name"]: f for f in to_table_schema(many)["fields"]}
+    assert ours == theirs
