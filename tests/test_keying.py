@@ -349,3 +349,22 @@ async def test_a_warned_id_stays_in_the_editor_and_a_second_enter_keeps_it(tmp_p
         assert app.screen.model.mode == FIELD_MODE
     (form,) = stored(path)
     assert form.participant == "7b"
+
+
+@sync
+async def test_review_names_flagged_fields_and_tab_goes_to_the_first(tmp_path):
+    path = make_study(tmp_path)
+    typed = ["12", "AK", "150", "", "2019-04-01", "4"]  # age 150 is outside 16..99
+    app = make_app(path, mode="key", pass_no=1, keyer="AB")
+    async with app.run_test(size=SIZE) as pilot:
+        keys = field_keys(typed[:3]) + ["enter"] + field_keys(typed[3:]) + ["asterisk"]
+        await pilot.press(*keys, *field_keys(["1", "2", ""]))  # children_visit skipped
+        model = app.screen.model
+        assert model.mode == REVIEW_MODE
+        detail = str(app.screen.detail.content)
+        assert "age (outside its range)" in detail and "belong2 (illegible)" in detail
+        assert "plot_m2 (" not in detail  # blank on paper, not required: nothing to flag
+        await pilot.press("tab")
+        assert (model.mode, model.names[model.cursor]) == (FIELD_MODE, "age")
+        await pilot.press("escape", *field_keys(["12"]), "1")  # reopen the same form
+        assert (model.mode, model.names[model.cursor]) == (FIELD_MODE, "age")

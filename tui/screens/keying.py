@@ -101,6 +101,21 @@ class KeyingScreen(Screen):
             return
         self._sync(reload=True)
 
+    def editor_tab(self, text: str) -> None:
+        """Tab confirms like Enter; in the review it goes to the first flagged field."""
+        if self.model.mode == REVIEW_MODE:
+            self.model.next_flagged()
+            self._sync(reload=True)
+        else:
+            self.editor_confirm(text)
+
+    def editor_page(self, direction: int) -> None:
+        """PageUp/PageDown scroll the field list (the editor keeps its place)."""
+        if direction < 0:
+            self.field_list.scroll_page_up(animate=False)
+        else:
+            self.field_list.scroll_page_down(animate=False)
+
     def editor_back(self) -> None:
         m = self.model
         if m.mode == CHOOSE_MODE:
@@ -223,10 +238,15 @@ class KeyingScreen(Screen):
             return "\n".join(m.choice_lines())
         if m.mode == REVIEW_MODE:
             n = len(self._flags)
-            flagged = f"{n} field(s) marked ! to look at" if n else "nothing flagged"
+            if n:
+                named = ", ".join(f"{m.names[i]} ({why})" for i, why in
+                                  list(self._flags.items())[:4])
+                flagged = f"{n} field(s) marked !: {named}{' …' if n > 4 else ''}"
+            else:
+                flagged = "nothing flagged"
             return (f"Review of form {m.form_id} (participant {m.pending_id or '?'}): "
-                    f"{flagged}.\nEnter finishes the form · ↑ goes back to its fields · "
-                    "Esc leaves it unfinished.")
+                    f"{flagged}.\nEnter finishes the form · Tab goes to the first flagged "
+                    "field · ↑ the last field · PgUp/PgDn scroll · Esc leaves it unfinished.")
         var = m.variables[m.cursor]
         page = f"page {var.section}" if var.section.isdigit() else var.section
         section = f"{page} · " if page else ""

@@ -195,33 +195,54 @@ class KeyingModel:
         self.resume()
 
     def resume(self) -> None:
-        """Put the cursor on the first unkeyed field that applies, else open the review."""
+        """Put the cursor on the first unkeyed field that applies.
+
+        A form with every field keyed opens on its first flagged field, else on
+        the first field after the ID, so a correction is a few keys away.
+        """
+        self.mode = FIELD_MODE
         for i, name in enumerate(self.names):
             if self.states[name] is None and self.applies(i):
                 self.cursor = i
-                self.mode = FIELD_MODE
                 return
-        self.mode = REVIEW_MODE
+        flagged = [f.index for f in self.flags()]
+        self.cursor = flagged[0] if flagged else min(self.id_index + 1, len(self.names) - 1)
+        self.message = ("Every field is keyed: Enter walks on, ↑ goes back, "
+                        "Esc leaves the form as it is.")
+
+    def next_flagged(self) -> None:
+        """From the review, go to the first flagged field (nothing flagged: stay)."""
+        flagged = [f.index for f in self.flags()]
+        if flagged:
+            self.mode = FIELD_MODE
+            self.cursor = flagged[0]
+            self.message = ""
 
     # ------------------------------------------------------------------ fields
 
     def typed_values(self) -> dict:
         """Keyed values that conditions mention, typed where they parse (for ``applies_if``)."""
         out = {}
-        for var in self.variables:
+        for i, var in enumerate(self.variables):
             if var.name not in self._condition_names:
                 continue
             text = self.texts.get(var.name)
             if self.states.get(var.name) != KEYED or text is None:
                 continue
+            canon = self._quick[i].canonical(text)
+            if canon is not None:  # plain values: no pandas on the key path
+                out[var.name] = {"integer": int, "number": float}.get(var.type, str)(canon)
+                continue
             parsed = parse(var, text)
             out[var.name] = parsed.value if parsed.value is not None else clean_text(text)
         return out
 
-    def applies(self, index: int) -> bool:
+    def applies(self, index: int, values: dict | None = None) -> bool:
         """Whether field ``index`` is asked, given what this form holds so far."""
         cond = self._conditions[index]
-        return cond.always or cond.evaluate_one(self.typed_values())
+        if cond.always:
+            return True
+        return cond.evaluate_one(self.typed_values() if values is None else values)
 
     def confirm(self, text: str) -> bool:
         """Enter/Tab on the current field; returns True when the cursor moved on."""
@@ -308,9 +329,10 @@ class KeyingModel:
     def flags(self) -> list[Flag]:
         """Fields the finishing review marks: not keyed, illegible, breaking the codebook."""
         out = []
+        values = self.typed_values()
         for i, var in enumerate(self.variables):
             state, text = self.states[var.name], self.texts[var.name]
-            applies = self.applies(i)
+            applies = self.applies(i, values)
             if state is None:
                 if applies:
                     out.append(Flag(i, "not keyed"))
@@ -320,11 +342,13 @@ class KeyingModel:
                 if var.required and applies:
                     out.append(Flag(i, "required, blank on paper"))
             else:
-                problem = self.problem_of(i, text or "")
-                if problem:
-                    out.append(Flag(i, problem))
-                elif not applies:
-                    out.append(Flag(i, f"keyed although {var.applies_if!r} is false"))
+                if not self._quick[i].allowed(text or ""):
+                    problem = parse(var, text or "").problem
+                    if problem:
+                        out.append(Flag(i, _SHORT.get(problem, problem)))
+                        continue
+                if not applies:
+                    out.append(Flag(i, f"keyed although {var.applies_if} is false"))
         return out
 
     def finish(self) -> None:
@@ -333,6 +357,10 @@ class KeyingModel:
         self.forms_done = self._count_finished()  # a corrected form is not counted twice
         self.cancel()
         self.message = "Form finished. Next form: type its participant ID."
+
+
+_SHORT = {"invalid_type": "not of its type", "out_of_range": "outside its range",
+          "not_in_codes": "not one of its codes"}
 
 
 def _finished(rec) -> bool:

@@ -32,10 +32,12 @@ class Keyer(Protocol):
 
     def editor_character(self, character: str) -> bool: ...
     def editor_confirm(self, text: str) -> None: ...
+    def editor_tab(self, text: str) -> None: ...
     def editor_back(self) -> None: ...
     def editor_illegible(self) -> None: ...
     def editor_escape(self) -> None: ...
     def editor_changed(self, text: str) -> None: ...
+    def editor_page(self, direction: int) -> None: ...
 
 
 class FieldEditor(Input):
@@ -65,10 +67,14 @@ class FieldEditor(Input):
     async def _on_key(self, event: events.Key) -> None:
         key = event.key
         handled = True
-        if key in ("enter", "tab", "ctrl+m", "ctrl+j"):
+        if key in ("enter", "ctrl+m", "ctrl+j"):
             self._keyer.editor_confirm(self.value)
+        elif key == "tab":
+            self._keyer.editor_tab(self.value)
         elif key in ("shift+tab", "up"):
             self._keyer.editor_back()
+        elif key in ("pageup", "pagedown"):
+            self._keyer.editor_page(-1 if key == "pageup" else 1)
         elif key == "escape":
             self._keyer.editor_escape()
         elif (event.character == ILLEGIBLE_CHARACTER or key == "multiply") and not self.value:
