@@ -100,7 +100,7 @@ def check_chain(rows: list[tuple], head: str = "") -> tuple[int, str] | None:
 
 
 def replay_grid(
-    rows: list[tuple], index: pd.Index, names: list[str]
+    rows: list[tuple], index: pd.Index, names: list[str], details: dict | None = None
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """What the values must be according to the journal, as grids over forms x variables.
 
@@ -109,7 +109,8 @@ def replay_grid(
     newest text and state written to each cell and the seq of the journal row
     that wrote it; None where the journal never wrote the cell. An imported
     form's row comes before any later change to it, so imports are laid down
-    first and single-field changes over them in seq order.
+    first and single-field changes over them in seq order. ``details`` may
+    hold the import rows' parsed ``detail`` by seq, to save parsing twice.
 
     >>> t, s, q = replay_grid([], pd.Index([1]), ["a"])
     >>> t.tolist(), s.tolist()
@@ -119,24 +120,31 @@ def replay_grid(
     state, seq = text.copy(), text.copy()
     columns = pd.Index(names)
     imports = [r for r in rows if r[3] == "import_form"]
-    if imports:
-        details = [json.loads(r[11]) for r in imports]
-        wide = pd.DataFrame([d["text"] for d in details], dtype=object).reindex(columns=names)
-        got = wide.to_numpy(dtype=object)
-        got = np.where(pd.isna(got), None, got)
-        at = index.get_indexer([r[4] for r in imports])
-        keep = at >= 0
-        got, at = got[keep], at[keep]
+    if details is None:
+        details = {r[0]: json.loads(r[11]) for r in imports}
+    # The forms of one import share their keys: lay them down a group at a time.
+    groups: dict[tuple, list[tuple]] = {}
+    for r in imports:
+        d = details[r[0]]
+        groups.setdefault(tuple(d["text"]), []).append((r, d))
+    for keys, members in groups.items():
+        at = index.get_indexer([r[4] for r, _ in members])
+        cols = columns.get_indexer(list(keys))
+        ok_rows, ok_cols = at >= 0, cols >= 0
+        got = np.array([list(d["text"].values()) for _, d in members], dtype=object)
+        got = got.reshape(len(members), len(keys))[np.ix_(ok_rows, ok_cols)]
+        rows_at, cols_at = at[ok_rows], cols[ok_cols]
         kinds = np.where(got == "", BLANK, KEYED).astype(object)
-        for i, d in enumerate(d for d, k in zip(details, keep, strict=True) if k):
+        for i, (_, d) in enumerate(m for m, k in zip(members, ok_rows, strict=True) if k):
             for name in d["illegible"]:
-                j = columns.get_loc(name) if name in columns else None
-                if j is not None:
-                    kinds[i, j] = ILLEGIBLE
-        kinds[got == None] = None  # noqa: E711 - elementwise on an object array
-        text[at], state[at] = got, kinds
-        seqs = np.array([r[0] for r in imports], dtype=object)[keep]
-        seq[at] = np.where(got == None, None, seqs[:, None])  # noqa: E711
+                hit = np.nonzero(np.asarray(keys, dtype=object)[ok_cols] == name)[0]
+                kinds[i, hit] = ILLEGIBLE
+        unset = got == None  # noqa: E711 - elementwise on an object array
+        kinds[unset] = None
+        seqs = np.array([r[0] for r, _ in members], dtype=object)[ok_rows]
+        grid = np.ix_(rows_at, cols_at)
+        text[grid], state[grid] = got, kinds
+        seq[grid] = np.where(unset, None, seqs[:, None])
     sets = pd.DataFrame(
         [(r[0], r[4], r[5], r[8], r[9]) for r in rows if r[3] == "set_value"],
         columns=["seq", "form_id", "variable", "text", "state"], dtype=object,

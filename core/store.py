@@ -426,12 +426,13 @@ class Study:
                          dtype="int64")  # fmt: skip
         cells = self._query("SELECT form_id, variable, text, state FROM form_values")
         names = self.codebook.names
-        seen = {r[5] for r in rows if r[3] == "set_value"} | {c[1] for c in cells}
-        for r in rows:
-            if r[3] == "import_form":
-                seen.update(json.loads(r[11])["text"])
+        details = {r[0]: json.loads(r[11]) for r in rows if r[3] == "import_form"}
+        seen = {r[5] for r in rows if r[3] == "set_value"}
+        seen.update(pd.unique(np.array([c[1] for c in cells], dtype=object)))
+        for d in details.values():
+            seen.update(d["text"])
         universe = names + sorted(seen - set(names))
-        expected = replay_grid(rows, index, universe)
+        expected = replay_grid(rows, index, universe, details)
         bad = first_difference(expected, _grid(index, universe, cells), index, universe,
                                "the values table")  # fmt: skip
         if bad is not None:
