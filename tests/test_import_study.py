@@ -109,3 +109,22 @@ def test_import_command_line(tmp_path, capsys):
                    str(good), "--encoding", "utf-8"])
     assert status == 2
     assert "give the file's real encoding" in capsys.readouterr().err
+
+
+def test_failure_half_way_through_leaves_nothing_behind(study, tmp_path, monkeypatch):
+    # All or nothing: the forms and values are written before the journal rows;
+    # a failure there must take the forms and values back out with it.
+    import_file(study, write_csv(tmp_path / "ok.csv", ROWS), 1, "AB")
+    head, forms = study.journal_head(), len(study.forms())
+
+    def broken(*args, **kwargs):
+        raise OSError("disk full")
+
+    monkeypatch.setattr(study, "_journal_many", broken)
+    with pytest.raises(OSError):
+        import_file(study, write_csv(tmp_path / "two.csv", ROWS), 2, "JM")
+    monkeypatch.undo()
+    assert study.journal_head() == head
+    assert len(study.forms()) == forms
+    assert study.load_pass(2).forms == 0
+    assert study.audit().ok
