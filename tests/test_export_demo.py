@@ -203,3 +203,50 @@ def test_report_command_refuses_an_unknown_format(demo, tmp_path, capsys):
     assert main(["report", str(open_study), "--out", str(tmp_path / "r.pdf")]) == 2
     assert "r.pdf: cannot write a report as .pdf — choose a .html or .md file." in (
         capsys.readouterr().err)
+
+
+def test_export_leaves_the_study_untouched_and_never_writes_over_it(demo, tmp_path, capsys):
+    import hashlib
+
+    _, resolved = demo
+    before = hashlib.sha256(resolved.read_bytes()).hexdigest()
+    with Study.open(resolved, readonly=True) as study:
+        head = study.journal_head()
+    assert main(["export", str(resolved), "--out", str(tmp_path / "v.csv")]) == 0
+    assert main(["export", str(resolved), "--out", str(resolved.with_suffix(".csv"))]) == 0
+    # A target that is the study file itself is bad input: exit 2, one sentence.
+    capsys.readouterr()
+    sneaky = resolved.parent / "garden.sqlite"
+    assert main(["export", str(resolved), "--out", str(tmp_path / "v.csv"),
+                 "--identifying", str(sneaky)]) == 2
+    err = capsys.readouterr().err
+    assert "this is the study file — choose another name" in err and "Traceback" not in err
+    assert hashlib.sha256(resolved.read_bytes()).hexdigest() == before
+    with Study.open(resolved, readonly=True) as study:
+        assert study.journal_head() == head
+
+
+def test_export_bad_target_is_exit_2(demo, tmp_path, capsys):
+    _, resolved = demo
+    assert main(["export", str(resolved), "--out", str(tmp_path / "v.json")]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and "choose a .csv or .xlsx file, or a folder" in err
+
+
+def test_progress_line_on_a_terminal_only():
+    import io
+
+    from tui.commands.export import _ProgressLine
+
+    class Tty(io.StringIO):
+        def isatty(self):
+            return True
+
+    tty, pipe = Tty(), io.StringIO()
+    for stream in (tty, pipe):
+        line = _ProgressLine(stream)
+        line("writing rows", 1000, 5000)
+        line("writing rows", 5000, 5000)
+        line.end()
+    assert tty.getvalue() == "\rwriting rows: 1,000 of 5,000   \rwriting rows: 5,000 of 5,000   \n"
+    assert pipe.getvalue() == ""
