@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import argparse
 import getpass
+import sys
 
 
 def configure(parser: argparse.ArgumentParser) -> None:
@@ -50,9 +51,16 @@ def run(args: argparse.Namespace) -> int:
 def _update(args: argparse.Namespace) -> int:
     from core.codebook_diff import diff_codebooks
     from core.codebook_io import load_codebook
+    from core.errors import CodebookError
     from core.store import Study
 
-    new = load_codebook(args.update)
+    try:
+        new = load_codebook(args.update)
+    except CodebookError as exc:
+        if len(exc.problems) > 1:  # all of them, so they can be fixed in one go
+            for problem in exc.problems:
+                sys.stderr.write(f"  {problem}\n")
+        raise
     with Study.open(args.study, readonly=args.dry_run) as study:
         if args.dry_run:
             diff = diff_codebooks(study.codebook, new)
