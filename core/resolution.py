@@ -12,7 +12,7 @@ Trade-offs:
   so a decision can never hide a later change: when either pass value now
   differs from what the decision saw, the row is ``stale`` and open again.
   Recomputing costs one comparison; joining the decisions is one vectorised
-  merge, so 50,000 rows stay well under a second.
+  lookup by key, so 50,000 rows stay well under a second.
 - A value that cannot be read as the variable's type (``7.5`` for an
   integer) never stands: it could not be typed in the verified table. A
   value of the right type outside the rule (range, codes) stands only when
@@ -30,10 +30,11 @@ Statuses in the worklist's ``_status``:
 - ``stale``: a pass value changed after the newest decision; the old decision
   is shown in the ``_decision_*`` columns.
 
-Length: one module on purpose, past the house's ~600 lines: the decision
-kinds, the decisions file and the verified table share one set of checks
-(reason, keyer, a value that may stand), and the resolution screen needs a
-single module to import.
+Length: past the house's ~600 lines on purpose: every decision kind shares
+one set of checks (reason, keyer, a value that may stand) and the screen
+imports one module. The decisions file (``core.decisions_file``) and the
+building of the verified table (``core.verified_build``) live apart, behind
+:func:`apply_decisions_file` and :func:`verified_table` here.
 
 Decisions file (``keyproof decide --from``): columns ``participant, variable,
 value, reason``; an empty value means blank on paper; a declared missing code
@@ -46,14 +47,12 @@ from __future__ import annotations
 
 import json
 from collections.abc import Callable, Iterable
-from pathlib import Path
-from zipfile import BadZipFile
 
 import numpy as np
 import pandas as pd
 
 from .codebook import Codebook, Variable
-from .errors import DecisionError, OpenWorkError
+from .errors import DecisionError
 from .values import BLANK, ILLEGIBLE, INVALID_TYPE, KEYED, allowed_text, canonical_series, parse
 from .verified import Verified
 
@@ -796,142 +795,36 @@ def _known_participant(study, participant: str) -> str:
 ProgressFn = Callable[[int, int], None]
 
 
-# --------------------------------------------------------------------------- decisions file
+def _natural_order(ids: pd.Index) -> list[int]:
+    """Positions of ``ids`` in natural order (2 before 10; texts after numbers)."""
+    import re
 
-_FILE_COLUMNS = ("participant", "variable", "value", "reason")
+    def key(text: str):
+        parts = re.split(r"(\d+)", str(text))
+        return [(0, int(p), "") if p.isdigit() else (1, 0, p) for p in parts if p]
+
+    return sorted(range(len(ids)), key=lambda i: key(ids[i]))
+
+
+# --------------------------------------------------------------------------- file and table
 
 
 def apply_decisions_file(study, path, keyer: str) -> int:
     """Apply a decisions file (CSV or XLSX) all or nothing; returns decisions recorded.
 
-    Columns ``participant, variable, value, reason`` (any order, more are
-    ignored). Every row is checked before anything is written: an unknown
-    participant or variable, a cell with nothing open, a value that cannot
-    stand, a missing reason or a second row for the same cell refuses the
-    whole file with a :class:`DecisionError` naming the file, row and column.
-    Then all rows apply in one transaction. See the module docstring for
-    blanks, missing codes and ``paper says:``.
+    Columns ``participant, variable, value, reason``. Every row is checked
+    before anything is written: an unknown participant or variable, a cell
+    with nothing open, a value that cannot stand, a missing reason or a
+    second row for the same cell refuses the whole file with a
+    :class:`DecisionError` naming the file, row and column. Then all rows
+    apply in one transaction (``core.decisions_file`` has the details).
 
     >>> apply_decisions_file(study, "decisions.csv", "LM")   # doctest: +SKIP
     12
     """
-    path = Path(path)
-    keyer = _need_keyer(keyer)
-    table = _read_decisions(path)
-    codebook = study.codebook
-    rows = worklist(study)
-    pending = rows[(rows["_status"] != SETTLED) & (rows["variable"].astype("string").fillna("") != "")]
-    open_at: dict[tuple[str, str], list[int]] = {}
-    for i, p, v in zip(pending.index, pending["participant"].astype(str),
-                       pending["variable"].astype(str), strict=True):
-        open_at.setdefault((p, v), []).append(i)
-    forms = study.forms()
-    known = set(_canonical_ids(codebook, forms["participant"])) if len(forms) else set()
-    ids = _canonical_ids(codebook, table["participant"])
-    plan: list[tuple[pd.Series, str, str, str, str]] = []
-    seen: dict[tuple[str, str], int] = {}
-    for pos, (participant, raw) in enumerate(zip(ids, table.itertuples(index=False), strict=True)):
-        line = pos + 2  # the header is row 1, as a spreadsheet shows it
+    from .decisions_file import apply_file
 
-        def bad(column: str, what: str, line: int = line) -> DecisionError:
-            return DecisionError(f'{path.name} row {line}, column "{column}": {what}.')
-
-        name = raw.variable.strip()
-        if not raw.participant.strip():
-            raise bad("participant", "the participant ID is empty — fill it in")
-        if participant not in known:
-            raise bad("participant", f'"{raw.participant.strip()}" has no form in this study — check the ID')
-        if name not in codebook:
-            raise bad("variable", f'"{name}" is not a variable of this study — check the name')
-        reason = " ".join(raw.reason.split())
-        if not reason:
-            raise bad("reason", "the reason is empty — say why this value stands")
-        cell = (participant, name)
-        if cell not in open_at:
-            raise bad("variable", f"participant {participant} has nothing open in {name} — remove the row")
-        if cell in seen:
-            raise bad("variable", f"participant {participant}, {name} is already decided in row {seen[cell]} — keep one row")
-        seen[cell] = line
-        value = raw.value.strip()
-        if value:
-            keep = reason.lower().startswith(KEEP_PREFIX)
-            try:
-                action = _check_value(codebook[name], value, keep,
-                                      keep_hint=f'start the reason with "{KEEP_PREFIX}" if the paper really shows it')
-            except DecisionError as exc:
-                raise bad("value", str(exc)[:-1]) from None
-            state = KEYED
-        else:
-            action, state = VALUE, BLANK
-        for i in open_at[cell]:
-            plan.append((rows.loc[i], action, value, state, reason))
-    with study.transaction():
-        for row, action, value, state, reason in plan:
-            decide(study, row, action, value, state, reason, keyer)
-    return len(plan)
-
-
-def _read_decisions(path: Path) -> pd.DataFrame:
-    """The decisions file as text columns (header row lower-cased, trimmed)."""
-    if not path.is_file():
-        raise DecisionError(f"{path.name} does not exist — check the file name.")
-    suffix = path.suffix.lower()
-    try:
-        if suffix == ".xlsx":
-            table = _read_xlsx(path)
-        elif suffix in (".csv", ".txt", ".tsv"):
-            with path.open(encoding="utf-8-sig") as handle:
-                header = handle.readline()
-            # The header names the columns, so it shows the separator plainly.
-            sep = max((",", ";", "\t"), key=header.count)
-            table = pd.read_csv(path, dtype=str, keep_default_na=False, sep=sep,
-                                encoding="utf-8-sig")
-        else:
-            raise DecisionError(f"{path.name} is neither .csv nor .xlsx — save it as one of them.")
-    except DecisionError:
-        raise
-    except (UnicodeDecodeError, ValueError, OSError, KeyError, BadZipFile, pd.errors.ParserError) as exc:
-        raise DecisionError(f"{path.name} could not be read as a table ({exc}) — save it as UTF-8 CSV or XLSX.") from None
-    table.columns = [str(c).strip().lower() for c in table.columns]
-    for col in _FILE_COLUMNS:
-        if col not in table.columns:
-            raise DecisionError(
-                f'{path.name} row 1, column "{col}" is missing — the file needs the columns '
-                "participant, variable, value, reason."
-            )
-    return table[list(_FILE_COLUMNS)].astype(str).reset_index(drop=True)
-
-
-def _read_xlsx(path: Path) -> pd.DataFrame:
-    from openpyxl import load_workbook
-
-    book = load_workbook(path, read_only=True, data_only=True)
-    try:
-        sheet = book["decisions"] if "decisions" in book.sheetnames else book.worksheets[0]
-        cells = [[_cell_text(v) for v in r] for r in sheet.iter_rows(values_only=True)]
-    finally:
-        book.close()
-    if not cells:
-        return pd.DataFrame(columns=list(_FILE_COLUMNS))
-    width = len(cells[0])
-    body = [(r + [""] * width)[:width] for r in cells[1:] if any(c.strip() for c in r)]
-    return pd.DataFrame(body, columns=cells[0], dtype=object)
-
-
-def _cell_text(value) -> str:
-    """A spreadsheet cell as the text a person sees (whole numbers without ``.0``)."""
-    if value is None:
-        return ""
-    if isinstance(value, bool):
-        return str(value).upper()
-    if isinstance(value, float) and value.is_integer():
-        return str(int(value))
-    if hasattr(value, "date") and hasattr(value, "isoformat"):
-        return value.date().isoformat() if hasattr(value, "hour") else value.isoformat()
-    return str(value)
-
-
-# --------------------------------------------------------------------------- verified table
+    return apply_file(study, path, keyer)
 
 
 def verified_table(study, draft: bool = False, progress: ProgressFn | None = None,
@@ -945,162 +838,11 @@ def verified_table(study, draft: bool = False, progress: ProgressFn | None = Non
     participants aside) it refuses with :class:`OpenWorkError` (counts by
     kind), unless ``draft``: open cells are then NA and listed in
     ``open_cells``, and a participant with an open form-level problem has
-    only its ID. ``progress(done, total)`` counts variables typed.
-    ``rows`` is a worklist already computed (:func:`worklist`); None computes it.
+    only its ID. ``progress(done, total)`` counts variables typed. ``rows``
+    is a worklist already computed (:func:`worklist`); None computes it.
 
     >>> verified_table(study).data.head()             # doctest: +SKIP
     """
-    codebook = study.codebook
-    rows = worklist(study) if rows is None else rows
-    aside = set_aside_list(study)
-    aside_ids = set(aside["participant"].astype(str))
-    participants = rows["participant"].astype("string").fillna("")
-    in_file = ~participants.isin(aside_ids)
-    pending = rows[(rows["_status"] != SETTLED) & in_file]
-    counts = {str(k): int(v) for k, v in pending["kind"].value_counts().items()}
-    if len(pending) and not draft:
-        total = len(pending)
-        listed = ", ".join(f"{v} {k}" for k, v in sorted(counts.items()))
-        raise OpenWorkError(
-            f"{_study_name(study)} has {total} open discrepanc{'y' if total == 1 else 'ies'} "
-            f"({listed}) — settle them with keyproof resolve or decide, or export a draft.",
-            counts,
-        )
-    ids, texts = _base_texts(study, codebook)
-    keep_rows = ~ids.isin(aside_ids)
-    ids, texts = ids[keep_rows], texts[keep_rows]
-    # Every override as (row, column) positions, found once for the whole table.
-    col_of = {name: j for j, name in enumerate(codebook.names)}
-    settled = rows[(rows["_status"] == SETTLED) & in_file
-                   & rows["_decision_action"].isin([VALUE, KEEP])
-                   & rows["variable"].isin(list(col_of))]
-    settled = settled.drop_duplicates(["participant", "variable"], keep="last")
-    stood = settled["_decision_value"].where(settled["_decision_state"] == KEYED, None)
-    _place(texts, ids, settled, stood.to_numpy(dtype=object), col_of)
-    open_cell = pending[pending["variable"].isin(list(col_of))]
-    _place(texts, ids, open_cell, None, col_of)
-    form_open = ids.isin(pending.loc[pending["kind"].isin(FORM_KINDS), "participant"].astype(str))
-    id_col = col_of[codebook.id_variable.name]
-    others = [j for j in range(len(col_of)) if j != id_col]
-    texts[np.ix_(form_open, others)] = None
-    data = _typed_columns(codebook, texts, progress)
-    frame = pd.DataFrame({name: data[name] for name in codebook.names})
-    frame = frame.iloc[_natural_order(ids)].reset_index(drop=True)
-    open_cells = pending[["participant", "variable", "kind"]].reset_index(drop=True)
-    return Verified(
-        codebook=codebook,
-        data=frame,
-        open_cells=open_cells,
-        set_aside=aside,
-        decisions=_decisions_that_count(study, rows),
-        kept=_kept(rows[in_file]),
-        head=study.journal_head(),
-        study=_study_name(study),
-        draft=bool(draft and len(pending)),
-    )
+    from .verified_build import build_verified
 
-
-def _base_texts(study, codebook: Codebook) -> tuple[pd.Index, np.ndarray]:
-    """Participant IDs (canonical) and their texts: pass 1's form, else pass 2's.
-
-    Texts are a 2-D object array in paper order, None where the field is
-    blank, illegible or not keyed. Where both passes agree this is the agreed
-    value; every other cell is overridden by a decision or opened.
-    """
-    id_name = codebook.id_variable.name
-    id_parts, text_parts = [], []
-    for pass_no in (1, 2):
-        data = study.load_pass(pass_no)
-        if data.text.empty:
-            continue
-        ids = _canonical_ids(codebook, data.text[id_name])
-        text = data.text[codebook.names].to_numpy(dtype=object, copy=True)
-        state = data.state.reindex(index=data.text.index, columns=codebook.names).to_numpy(dtype=object)
-        text[state != KEYED] = None
-        fresh = ~ids.duplicated(keep="first") & (ids != "")
-        if id_parts:
-            fresh &= ~ids.isin(id_parts[0])
-        id_parts.append(ids[fresh].to_numpy(dtype=object))
-        text_parts.append(text[fresh.to_numpy()])
-    if not id_parts:
-        return pd.Index([], dtype=object), np.empty((0, len(codebook)), dtype=object)
-    return pd.Index(np.concatenate(id_parts), dtype=object), np.concatenate(text_parts)
-
-
-def _place(texts: np.ndarray, ids: pd.Index, cells: pd.DataFrame, values, col_of) -> None:
-    """Write ``values`` (None: NA) into ``texts`` at the cells' participant and variable."""
-    if cells.empty:
-        return
-    r = ids.get_indexer(cells["participant"].astype(str))
-    c = cells["variable"].map(col_of).to_numpy(dtype=int)
-    hit = r >= 0
-    texts[r[hit], c[hit]] = None if values is None else values[hit]
-
-
-def _typed_columns(codebook: Codebook, texts: np.ndarray, progress: ProgressFn | None) -> dict:
-    """Columns of keyed texts (None = NA) typed per the codebook, by name.
-
-    Reading text as a type depends only on the type and date format, so the
-    value rules run once per such group on its distinct texts, then spread
-    back by code: 300 items on a 1-7 scale parse seven texts, not 1.5 million.
-    """
-    groups: dict[tuple[str, str], list[int]] = {}
-    for j, var in enumerate(codebook):
-        groups.setdefault((var.type, var.format), []).append(j)
-    n = texts.shape[0]
-    out, done = {}, 0
-    for cols in groups.values():
-        var = codebook.variables[cols[0]]
-        block = texts[:, cols].ravel(order="F")  # column after column
-        codes, uniques = pd.factorize(pd.Series(block, dtype=object), use_na_sentinel=True)
-        canon, valid = canonical_series(var, pd.Series(uniques, dtype=object))
-        typed = _typed_column(var, canon.where(valid, None)).array.take(codes, allow_fill=True)
-        for k, j in enumerate(cols):
-            out[codebook.variables[j].name] = pd.Series(typed[k * n:(k + 1) * n])
-        done += len(cols)
-        if progress is not None:
-            progress(done, len(codebook))
-    return out
-
-
-def _typed_column(var: Variable, canon: pd.Series) -> pd.Series:
-    """Canonical texts (None = NA) as the variable's pandas type."""
-    if var.type == "integer":
-        return pd.to_numeric(canon.astype("string"), errors="coerce").astype("Int64")
-    if var.type == "number":
-        return pd.to_numeric(canon.astype("string"), errors="coerce").astype("Float64")
-    if var.type == "date":
-        return pd.to_datetime(canon, format="%Y-%m-%d", errors="coerce")
-    return canon.astype("string")
-
-
-def _natural_order(ids: pd.Index) -> list[int]:
-    """Positions of ``ids`` in natural order (2 before 10; texts after numbers)."""
-    import re
-
-    def key(text: str):
-        parts = re.split(r"(\d+)", str(text))
-        return [(0, int(p), "") if p.isdigit() else (1, 0, p) for p in parts if p]
-
-    return sorted(range(len(ids)), key=lambda i: key(ids[i]))
-
-
-def _decisions_that_count(study, rows: pd.DataFrame) -> pd.DataFrame:
-    """Newest decision per key, not undone and not stale, oldest first."""
-    newest = _newest(study.decisions())
-    if newest.empty:
-        return newest
-    newest = newest[newest["action"] != REOPEN]
-    stale = rows.loc[rows["_status"] == STALE, "_decision_id"].dropna()
-    return newest[~newest["decision_id"].isin(set(stale))].reset_index(drop=True)
-
-
-def _kept(rows: pd.DataFrame) -> pd.DataFrame:
-    kept = rows[(rows["_status"] == SETTLED) & (rows["_decision_action"] == KEEP)]
-    out = kept[["participant", "variable", "_decision_value", "_decision_reason"]]
-    return out.rename(columns={"_decision_value": "value", "_decision_reason": "reason"}
-                      ).reset_index(drop=True)
-
-
-def _study_name(study) -> str:
-    return str(getattr(study, "name", "") or "the study")
+    return build_verified(study, draft=draft, progress=progress, rows=rows)
