@@ -154,15 +154,15 @@ def test_bad_codebook_lists_every_located_problem(name):
 
 
 @pytest.mark.parametrize("name", sorted(EXPECTED))
-def test_command_line_prints_the_problem_and_exits_2(name, capsys, tmp_path):
+def test_init_prints_every_problem_exits_2_and_creates_nothing(name, capsys, tmp_path):
     from tui.cli import main
 
-    # compare with --codebook reads the codebook before the keyed files.
-    status = main(["compare", str(tmp_path / "a.csv"), str(tmp_path / "b.csv"),
-                   "--codebook", str(BAD / name)])
+    study = tmp_path / "study.sqlite"
+    status = main(["init", str(study), "--codebook", str(BAD / name), "--keyer", "AB"])
     err = capsys.readouterr().err
-    assert status == 2
-    assert EXPECTED[name][0] in err and "Traceback" not in err
+    assert status == 2  # DESIGN.md: bad input exits 2 with a located one-line error
+    assert all(problem in err for problem in EXPECTED[name]) and "Traceback" not in err
+    assert not study.exists()
 
 
 def test_date_in_a_condition_is_written_iso_whatever_the_paper_format():
