@@ -364,13 +364,24 @@ def _write_workbook(
             ws = wb.create_sheet(title)
             ws.append([str(c) for c in table.columns])
             total = len(table)
+            guard = _may_look_like_formulas(table)
             for i, row in enumerate(_cells(table), start=1):
-                ws.append([_as_text_if_formula(ws, v) for v in row])
+                ws.append([_as_text_if_formula(ws, v) for v in row] if guard else row)
                 if progress is not None and title == "data" and (i % _CHUNK == 0 or i == total):
                     progress(i, total)
         wb.save(tmp)
 
     return atomic_write(path, write)
+
+
+def _may_look_like_formulas(table: pd.DataFrame) -> bool:
+    """Whether any text cell starts with "=" (checked per column, vectorised)."""
+    for name in table.columns:
+        col = table[name]
+        if pd.api.types.is_string_dtype(col) or col.dtype == object:
+            if col.astype("string").str.startswith("=").fillna(False).any():
+                return True
+    return False
 
 
 def _as_text_if_formula(ws, value):

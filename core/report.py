@@ -572,7 +572,7 @@ def rate_plot_svg(rates: pd.DataFrame, width: int = 560) -> str:
         parts.append(f'<line x1="{x(value):.1f}" y1="{axis_y}" x2="{x(value):.1f}" '
                      f'y2="{axis_y + 5}" stroke="#333"/>')
         parts.append(f'<text x="{x(value):.1f}" y="{axis_y + 18}" text-anchor="middle">'
-                     f'{escape(_num(value))}</text>')
+                     f'{value:,.4g}</text>')
     parts.append(f'<text x="{left + span / 2:.1f}" y="{axis_y + 34}" text-anchor="middle">'
                  'errors per 10,000 fields (95 % Wilson interval)</text>')
     for i, r in rates.iterrows():
