@@ -223,7 +223,8 @@ def _cells(f: dict, key: list, shared_missing: list[str]) -> dict:
         "required": _text(bool(constraints.get("required", False) or ext.get("required", False))),
         "min": _text(constraints.get("minimum")),
         "max": _text(constraints.get("maximum")),
-        "format": "" if fmt in ("", "default", "any", None) else _text(fmt),
+        # Only a date's format is a pattern keyproof reads; "email", "uri" etc. describe strings.
+        "format": "" if fmt in ("", "default", "any", None) or f.get("type") != "date" else _text(fmt),
         "width": _text(ext.get("width")),
         "codes": _codes(f, constraints),
         "missing": _missing(f, shared_missing),

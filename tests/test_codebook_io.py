@@ -313,6 +313,8 @@ def test_table_schema_from_elsewhere():
         "fields": [
             {"name": "id", "type": "string"},
             {"name": "sex", "type": "string", "constraints": {"enum": ["f", "m", "d"]}},
+            {"name": "mail", "type": "string", "format": "email"},
+            {"name": "born", "type": "date", "format": "%d/%m/%Y"},
             {"name": "score", "type": "integer", "constraints": {"minimum": 0, "maximum": 40}},
             {"name": "grade", "type": "integer", "categories": [{"value": 1, "label": "pass"},
                                                                {"value": 2, "label": "fail"}]},
@@ -326,6 +328,8 @@ def test_table_schema_from_elsewhere():
     assert cb["score"].missing == (Code("-99"),)  # "NA" is not an integer, so not its missing code
     assert cb["sex"].missing == (Code("NA"), Code("-99"))
     assert cb["grade"].codes == (Code("1", "pass"), Code("2", "fail"))
+    # Table Schema: a string's format ("email") is not a date pattern; a date's is.
+    assert (cb["mail"].format, cb["born"].format) == ("", "%d/%m/%Y")
 
 
 def test_scale_settings_survive_the_round_trip():
