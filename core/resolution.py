@@ -27,8 +27,9 @@ Statuses in the worklist's ``_status``:
   form was confirmed as keyed in one pass only (``_decision_action`` is then
   ``one_pass_only``) and waits for the other pass;
 - ``settled``: the newest decision saw the very pass values shown now;
-- ``stale``: a pass value changed after the newest decision; the old decision
-  is shown in the ``_decision_*`` columns.
+- ``stale``: a pass value changed after the newest decision, or a form-level
+  row that a pairing or a drop had settled shows again; the old decision is
+  shown in the ``_decision_*`` columns.
 
 Length: past the house's ~600 lines on purpose: every decision kind shares
 one set of checks (reason, keyer, a value that may stand) and the screen
@@ -158,8 +159,11 @@ def join_decisions(table: pd.DataFrame, decisions: pd.DataFrame) -> pd.DataFrame
         # dtype=object spares pandas inferring a string dtype element by element.
         work[dst] = pd.Series(taken[dst], index=work.index, dtype=object)
     work["_decision_id"] = pd.array(taken["_decision_id"], dtype="Int64")
+    # A pairing or a drop settles its row by changing the passes, so the row
+    # showing again means it was undone (an ID re-keyed, a form restored).
+    redone = np.isin(taken["_decision_action"], [PAIR, DROP])
     changed = hit & ((_plain(work["pass1"]) != taken["_seen1"])
-                     | (_plain(work["pass2"]) != taken["_seen2"]))
+                     | (_plain(work["pass2"]) != taken["_seen2"]) | redone)
     waiting = np.isin(taken["_decision_action"], [REOPEN, ONE_PASS_ONLY])
     status = np.full(n, OPEN, dtype=object)
     status[hit & ~changed & ~waiting] = SETTLED

@@ -242,6 +242,9 @@ def test_pair_forms_corrects_the_mistyped_id_in_the_other_pass(tmp_path):
     changes = s.journal()
     changes = changes[(changes["form_id"] == f2) & (changes["variable"] == "pid")]
     assert changes.iloc[-1]["who"] == "LM" and changes.iloc[-1]["new_text"] == "12"
+    # Re-keying the wrong ID brings the row back: the pairing no longer holds.
+    s.set_value(f2, "pid", "21", "keyed", "JM")
+    assert worklist(s, _table([row]))["_status"].tolist() == ["stale"]
     s.close()
 
 
