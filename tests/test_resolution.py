@@ -540,3 +540,22 @@ def test_moving_through_the_worklist(study):
     assert next_open(work) == 1 and next_open(work, 3) == 3 and next_open(work, 4) is None
     assert position_of(work, "3") == 1 and position_of(work, "9") is None
     assert counts_by_kind(work) == {"mismatch": 3}
+
+
+def test_verified_table_reads_local_dates_and_decimal_commas(tmp_path):
+    cb = Codebook((Variable("pid", "integer", is_id=True), Variable("seen", "date", format="%d.%m.%Y"),
+                   Variable("kg", "number"), Variable("q", "integer", missing=(Code("-9"),))))  # fmt: skip
+    texts = pd.DataFrame({"pid": ["010", "2"], "seen": ["31.01.2020", ""], "kg": ["3,5", "70"],
+                          "q": ["-9", "4"]})  # fmt: skip
+    with Study.create(tmp_path / "t.sqlite", cb, "lead") as s:
+        s.import_pass(1, "AB", texts)
+        s.import_pass(2, "JM", texts.assign(pid=["10", "02"], kg=["3.50", "70.0"]))
+        data = verified_table(s).data
+    # pandas' own parsers are the reference: day-first as the format says, comma read as a point.
+    expected = pd.DataFrame({
+        "pid": pd.array([2, 10], dtype="Int64"),
+        "seen": pd.to_datetime(pd.Series([None, "31.01.2020"]), format="%d.%m.%Y"),
+        "kg": pd.array([70.0, 3.5], dtype="Float64"),
+        "q": pd.array([4, -9], dtype="Int64"),  # a declared missing code stays as its code
+    })  # fmt: skip
+    pd.testing.assert_frame_equal(data, expected)
