@@ -11,7 +11,8 @@ What real files look like, and what we do about it:
 - CSV: UTF-8 with or without a byte-order mark, UTF-16 with a mark (a
   spreadsheet's "Unicode text"), else Windows-1252, else Latin-1. The
   delimiter (comma, semicolon or tab) is taken from the header line alone,
-  because the ``codes`` cells below it hold semicolons of their own.
+  because the ``codes`` cells below it hold semicolons of their own, unless a
+  first line such as ``sep=;`` names it.
 - XLSX: the sheet named ``codebook`` (any case), else the first sheet. Whole
   numbers stored as floats read as ``7``, not ``7.0``; dates read as ISO
   text; formulas by their cached value (a formula the spreadsheet never
@@ -231,8 +232,15 @@ def _decode(path: Path) -> str:
 def _read_csv(path: Path) -> list[tuple[int, list[str]]]:
     text = _decode(path)
     first = next((line for line in text.splitlines() if line.strip()), "")
-    # The header names hold no delimiters; the cells below may (codes use ";").
-    delimiter = max([",", ";", "\t"], key=first.count)
+    if first.lower().startswith("sep=") and len(first.strip()) == 5:
+        # A spreadsheet's "sep=;" line names the delimiter; the spreadsheet hides it, so
+        # rows are numbered as the user sees them there.
+        delimiter = first.strip()[4]
+        text = text.split("\n", 1)[1] if "\n" in text else ""
+        first = next((line for line in text.splitlines() if line.strip()), "")
+    else:
+        # The header names hold no delimiters; the cells below may (codes use ";").
+        delimiter = max([",", ";", "\t"], key=first.count)
     try:
         # skipinitialspace: `a, "b, c"` is two cells, as a person writing it means.
         records = list(csv.reader(io.StringIO(text, newline=""), delimiter=delimiter,

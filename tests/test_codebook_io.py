@@ -219,6 +219,17 @@ def test_windows_1252_with_semicolons_and_decimal_commas():
     assert (cb["mood1"].min, cb["mood1"].max) == (0.5, 5.5)
 
 
+def test_a_sep_line_names_the_delimiter_and_is_not_counted(tmp_path):
+    # Spreadsheets honour and hide a first line "sep=;" (a spreadsheet convention,
+    # stated from memory); rows are numbered as the user sees them there.
+    p = tmp_path / "cb.csv"
+    p.write_text("sep=;\nname;type;id;min;max\npid;string;yes;;\nage;integer;no;99;16\n")
+    with pytest.raises(CodebookError) as info:
+        load_codebook(p)
+    assert info.value.problems == ['cb.csv row 3 ("age"): min 99 is greater than max 16 — swap them '
+                                   "or fix the typo."]
+
+
 def test_utf16_tab_separated_unicode_text():
     cb = load_codebook(GOOD / "unicode_text.txt")
     assert cb.names == ["pid", "age", "pet", "pet_kind", "mood1", "mood2", "visit"]
