@@ -316,60 +316,91 @@ def _signature(var: Variable) -> tuple:
 class _Side:
     """One pass over the paired forms, as arrays (rows = paired forms, columns = variables)."""
 
-    text: np.ndarray
-    state: np.ndarray
-    ucode: np.ndarray  # code of the cell's text among its variable group's distinct texts
-    canon_id: np.ndarray  # equal numbers = equal typed values (within a variable)
+    state: np.ndarray  # int8 state code
+    ucode: np.ndarray  # the cell's text among its variable group's distinct texts; -1 none
+    gid: np.ndarray  # canonical value, numbered across all variables: equal = same value
     valid: np.ndarray
     problem: np.ndarray  # 0, or 2 out_of_range, 3 not_in_codes
     missing: np.ndarray  # a declared missing code
 
 
+def _column_codes(col: pd.Series, pos: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Codes (-1 = no text) of the paired rows and the column's distinct texts."""
+    codes, uniques = pd.factorize(col)
+    return codes[pos], np.asarray(uniques, dtype=object)
+
+
 def _sides(codebook: Codebook, p1: PassData, p2: PassData, forms1, forms2, progress):
+    """Both passes as arrays; plus, per column, its distinct texts and their canonical forms.
+
+    Each column is factorised on its own (no copy of the frame); the value
+    rules then run once per group of variables with the same rules, on the
+    group's distinct texts only.
+    """
     names = codebook.names
     n, m = len(forms1), len(names)
-    raw = []
-    for p, forms in ((p1, forms1), (p2, forms2)):
-        pos = p.text.index.get_indexer(forms)
-        raw.append((p.text.to_numpy(dtype=object)[pos], _state_codes(p.state)[pos]))
-    sides = [_Side(t, s, np.empty((n, m), np.int32), np.empty((n, m), np.int64),
-                   np.empty((n, m), bool), np.empty((n, m), np.int8), np.empty((n, m), bool))
-             for t, s in raw]
+    passes = ((p1, p1.text.index.get_indexer(forms1)), (p2, p2.text.index.get_indexer(forms2)))
+    sides = [_Side(np.empty((n, m), np.int8), np.empty((n, m), np.int32),
+                   np.empty((n, m), np.int64), np.empty((n, m), bool),
+                   np.empty((n, m), np.int8), np.empty((n, m), bool)) for _ in passes]
+    state_code = {KEYED: _K, BLANK: _B, ILLEGIBLE: _I}
+    for side, (p, pos) in zip(sides, passes, strict=True):
+        for j, name in enumerate(names):
+            codes, uniques = _column_codes(p.state[name], pos)
+            lookup = np.array([state_code.get(u, _N) for u in uniques] + [_N], dtype=np.int8)
+            side.state[:, j] = lookup[codes]
     groups: dict[tuple, list[int]] = {}
     for j, var in enumerate(codebook.variables):
         groups.setdefault(_signature(var), []).append(j)
+    texts_of: list[np.ndarray] = [None] * m  # per column: distinct texts by ucode (+ None)
     canon_of: list[np.ndarray] = [None] * m  # per column: canonical text by ucode (+ None)
+    global_ids: dict[str, int] = {}
     for done, cols in enumerate(groups.values(), start=1):
         var = codebook.variables[cols[0]]
-        flat = np.concatenate([sides[0].text[:, cols].ravel(), sides[1].text[:, cols].ravel()])
-        codes, uniques = pd.factorize(flat)
+        parts = {(k, j): _column_codes(p.text[names[j]], pos)
+                 for k, (p, pos) in enumerate(passes) for j in cols}
+        uniques = pd.unique(np.concatenate([u for _, u in parts.values()] + [np.array([], object)]))
+        index = pd.Index(uniques, dtype=object)
         canon, valid = canonical_series(var, pd.Series(uniques, dtype=object))
         problem = rule_problems(var, canon, valid).map(_PROBLEM_CODE).to_numpy(dtype=np.int8)
-        missing_codes, _ = canonical_series(var, pd.Series(list(var.missing_values), dtype=object))
-        missing = (canon.isin(set(missing_codes)) & valid).to_numpy(dtype=bool)
+        missing = np.zeros(len(uniques), dtype=bool)
+        if var.missing:
+            codes_missing, _ = canonical_series(var, pd.Series(list(var.missing_values),
+                                                               dtype=object))
+            missing = (canon.isin(set(codes_missing)) & valid).to_numpy(dtype=bool)
         canon_arr = canon.to_numpy(dtype=object)
-        canon_id = pd.factorize(canon_arr)[0]
-        # Index -1 (no text at all) picks the appended last element.
-        ext = {
-            "canon_id": np.append(canon_id, -1),
-            "valid": np.append(valid.to_numpy(dtype=bool), True),
-            "problem": np.append(problem, 0).astype(np.int8),
-            "missing": np.append(missing, False),
-        }
+        gid = np.array([global_ids.setdefault(c, len(global_ids)) for c in canon_arr] + [-1],
+                       dtype=np.int64)
+        valid_ext = np.append(valid.to_numpy(dtype=bool), True)
+        problem_ext = np.append(problem, 0).astype(np.int8)
+        missing_ext = np.append(missing, False)
+        texts_ext = np.append(uniques.astype(object), None)
         canon_ext = np.append(canon_arr, None)
-        half = n * len(cols)
-        for k, side in enumerate(sides):
-            c = codes[k * half:(k + 1) * half].reshape(n, len(cols))
-            side.ucode[:, cols] = c
-            side.canon_id[:, cols] = ext["canon_id"][c]
-            side.valid[:, cols] = ext["valid"][c]
-            side.problem[:, cols] = ext["problem"][c]
-            side.missing[:, cols] = ext["missing"][c]
+        for (k, j), (codes, col_uniques) in parts.items():
+            # Index -1 (no text at all) picks the appended last element.
+            remap = np.append(index.get_indexer(col_uniques), -1)
+            c = remap[codes]
+            side = sides[k]
+            side.ucode[:, j] = c
+            side.gid[:, j] = gid[c]
+            side.valid[:, j] = valid_ext[c]
+            side.problem[:, j] = problem_ext[c]
+            side.missing[:, j] = missing_ext[c]
         for j in cols:
+            texts_of[j] = texts_ext
             canon_of[j] = canon_ext
         if progress:
             progress(done, len(groups))
-    return sides, canon_of
+    return sides, texts_of, canon_of
+
+
+def _cells(side: _Side, lookup: list[np.ndarray], rows: np.ndarray, cols: np.ndarray) -> np.ndarray:
+    """Texts (or canonical texts) of the listed cells, one variable at a time."""
+    out = np.empty(len(rows), dtype=object)
+    for j in np.unique(cols):
+        at = cols == j
+        out[at] = lookup[j][side.ucode[rows[at], j]]
+    return out
 
 
 def _canon_column(side: _Side, canon_of, j: int) -> np.ndarray:
@@ -399,13 +430,13 @@ def _compare_fields(codebook, p1, p2, forms1, forms2, progress) -> pd.DataFrame:
     variables = codebook.variables
     if len(forms1) == 0:
         return _field_frame([], [], [], [], [], [], [], [], [], [])
-    (a, b), canon_of = _sides(codebook, p1, p2, forms1, forms2, progress)
+    (a, b), texts_of, canon_of = _sides(codebook, p1, p2, forms1, forms2, progress)
     required = np.array([v.required for v in variables], dtype=bool)
     conditional = np.array([bool(v.applies_if.strip()) for v in variables], dtype=bool)
     cond_a, cond_b = _conditions(codebook, a, canon_of), _conditions(codebook, b, canon_of)
 
     keyed_a, keyed_b = a.state == _K, b.state == _K
-    differ = (a.state != b.state) | (keyed_a & keyed_b & (a.canon_id != b.canon_id))
+    differ = (a.state != b.state) | (keyed_a & keyed_b & (a.gid != b.gid))
     agreed = keyed_a & keyed_b & ~differ
     empty_agreed = ~differ & ((a.state == _B) | (a.state == _I))
     kind = np.zeros(differ.shape, dtype=np.int8)
@@ -420,16 +451,20 @@ def _compare_fields(codebook, p1, p2, forms1, forms2, progress) -> pd.DataFrame:
 
     rows, cols = np.nonzero(kind)
     k = kind[rows, cols]
-    shown1 = _shown(a.text[rows, cols], a.state[rows, cols])
-    shown2 = _shown(b.text[rows, cols], b.state[rows, cols])
+    text_a, text_b = _cells(a, texts_of, rows, cols), _cells(b, texts_of, rows, cols)
+    shown1 = _shown(text_a, a.state[rows, cols])
+    shown2 = _shown(text_b, b.state[rows, cols])
     is_mis = k == _KIND_CODE["mismatch"]
     cause = np.full(len(rows), "", dtype=object)
     if is_mis.any():
-        shift = _shift_cells(a, b, differ, canon_of)
-        cause[is_mis] = _mismatch_causes(variables, a, b, rows[is_mis], cols[is_mis], shift)
+        shift = _shift_cells(a, b, differ)
+        cause[is_mis] = _mismatch_causes(variables, a, b, rows[is_mis], cols[is_mis],
+                                         text_a[is_mis], text_b[is_mis], shift)
     side_a = _side_problems(a, cond_a, required, rows, cols)
     side_b = _side_problems(b, cond_b, required, rows, cols)
-    detail = [_detail(variables[j], kk, pa, pb, ca, cb, st)
+    allowed = {j: f"{variables[j].name} allows {allowed_text(variables[j])}"
+               for j in np.unique(cols).tolist()}
+    detail = [_detail(variables[j], allowed[j], kk, pa, pb, ca, cb, st)
               for j, kk, pa, pb, ca, cb, st in zip(
                   cols.tolist(), k.tolist(), side_a.tolist(), side_b.tolist(),
                   cond_a[rows, cols].tolist(), cond_b[rows, cols].tolist(),
@@ -456,31 +491,24 @@ def _field_frame(rows, variable, kind, pass1, pass2, cause, detail, form1, form2
     })
 
 
-def _shift_cells(a: _Side, b: _Side, differ: np.ndarray, canon_of) -> np.ndarray:
+def _shift_cells(a: _Side, b: _Side, differ: np.ndarray) -> np.ndarray:
     """Field-shift cells; only forms with two or more disagreements can hold a run."""
     out = np.zeros(differ.shape, dtype=bool)
     rows = np.flatnonzero(differ.sum(axis=1) >= 2)
     if len(rows) == 0:
         return out
-    keys = []
-    for side in (a, b):
-        k = np.empty((len(rows), differ.shape[1]), dtype=object)
-        for j in range(differ.shape[1]):
-            k[:, j] = canon_of[j][side.ucode[rows, j]]
-        st = side.state[rows]
-        k[st == _B] = ""
-        k[st == _I] = "\x00illegible"
-        k[st == _N] = "\x00not keyed"
-        keys.append(k)
+    # Keys comparable across variables: canonical value and state together.
+    keys = [(s.gid[rows] + 1) * 4 + s.state[rows] for s in (a, b)]
     absent = [(s.state[rows] == _B) | (s.state[rows] == _N) for s in (a, b)]
     out[rows] = _causes.field_shift_cells(keys[0], keys[1], differ[rows], absent[0], absent[1])
     return out
 
 
-def _mismatch_causes(variables, a: _Side, b: _Side, rows, cols, shift) -> np.ndarray:
+def _mismatch_causes(variables, a: _Side, b: _Side, rows, cols, text_a, text_b,
+                     shift) -> np.ndarray:
     sa, sb = a.state[rows, cols], b.state[rows, cols]
-    text1 = pd.Series(a.text[rows, cols], dtype=object).where(sa == _K, "").astype(str).str.strip()
-    text2 = pd.Series(b.text[rows, cols], dtype=object).where(sb == _K, "").astype(str).str.strip()
+    text1 = pd.Series(text_a, dtype=object).where(sa == _K, "").astype(str).str.strip()
+    text2 = pd.Series(text_b, dtype=object).where(sb == _K, "").astype(str).str.strip()
     numeric = np.array([v.type in ("integer", "number") for v in variables])[cols]
     width = np.array([v.implied_width or 0 for v in variables])[cols]
     s = lambda x: pd.Series(x)  # noqa: E731
@@ -509,9 +537,8 @@ _BREAKS = {1: "is blank but required", 2: "is out of range", 3: "is not one of t
            4: "is not a valid {type}", 5: "is keyed but the question does not apply"}
 
 
-def _detail(var: Variable, kind: int, pa: int, pb: int, cond_a: bool, cond_b: bool,
-            state: int) -> str:
-    allowed = f"{var.name} allows {allowed_text(var)}"
+def _detail(var: Variable, allowed: str, kind: int, pa: int, pb: int, cond_a: bool,
+            cond_b: bool, state: int) -> str:
     if kind == _KIND_CODE["mismatch"]:
         if not pa and not pb:
             return "both values fit the codebook"
