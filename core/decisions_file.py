@@ -72,6 +72,8 @@ def apply_file(study, path, keyer: str) -> int:
             return DecisionError(f'{path.name} row {line}, column "{column}": {what}.')
 
         name = raw.variable.strip()
+        if not any(str(x).strip() for x in raw):
+            continue  # an empty line; kept while reading so row numbers stay true
         if not raw.participant.strip():
             raise bad("participant", "the participant ID is empty — fill it in")
         if participant not in known:
@@ -120,7 +122,7 @@ def _read_decisions(path: Path) -> pd.DataFrame:
             # The header names the columns, so it shows the separator plainly.
             sep = max((",", ";", "\t"), key=header.count)
             table = pd.read_csv(path, dtype=str, keep_default_na=False, sep=sep,
-                                encoding="utf-8-sig")
+                                encoding="utf-8-sig", skip_blank_lines=False)
         else:
             raise DecisionError(f"{path.name} is neither .csv nor .xlsx — save it as one of them.")
     except DecisionError:
@@ -149,7 +151,7 @@ def _read_xlsx(path: Path) -> pd.DataFrame:
     if not cells:
         return pd.DataFrame(columns=list(_FILE_COLUMNS))
     width = len(cells[0])
-    body = [(r + [""] * width)[:width] for r in cells[1:] if any(c.strip() for c in r)]
+    body = [(r + [""] * width)[:width] for r in cells[1:]]
     return pd.DataFrame(body, columns=cells[0], dtype=object)
 
 

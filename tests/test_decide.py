@@ -177,3 +177,17 @@ def test_decide_warns_when_the_resolver_keyed_a_pass(study, tmp_path, capsys):
     err = capsys.readouterr().err
     # Barchard, Freeman, Ochoa & Stephens (2020): resolve against the paper, ideally by another person.
     assert "AB keyed a pass of 1 of these participants (2); check each value against the paper" in err
+
+
+def test_row_numbers_count_empty_lines_as_a_spreadsheet_shows_them(study, tmp_path):
+    path = _write(tmp_path, "3,note,,paper blank\n\n,,,\n2,agee,38,checked\n")
+    with pytest.raises(DecisionError, match=r'^decisions.csv row 5, column "variable"'):
+        apply_decisions_file(study, path, "LM")
+    book = Workbook()
+    sheet = book.active
+    for line in (["participant", "variable", "value", "reason"], ["3", "note", None, "paper blank"],
+                 [None, None, None, None], ["2", "agee", 38, "checked"]):  # fmt: skip
+        sheet.append(line)
+    book.save(tmp_path / "gaps.xlsx")
+    with pytest.raises(DecisionError, match=r'^gaps.xlsx row 4, column "variable"'):
+        apply_decisions_file(study, tmp_path / "gaps.xlsx", "LM")
