@@ -27,10 +27,12 @@ class KeyproofApp(App):
     def __init__(self, study_path, *, mode: str = "home", pass_no: int | None = None,
                  keyer: str | None = None):
         super().__init__()
-        if mode not in ("home", "key"):
-            raise ValueError(f"mode must be 'home' or 'key', not {mode!r}")
+        if mode not in ("home", "key", "resolve"):
+            raise ValueError(f"mode must be 'home', 'key' or 'resolve', not {mode!r}")
         if mode == "key" and (pass_no not in (1, 2) or not keyer):
             raise ValueError("keying needs pass_no 1 or 2 and the keyer's initials")
+        if mode == "resolve" and not keyer:
+            raise ValueError("resolving needs the resolver's initials")
         self.study_path = Path(study_path)
         # Opening is a connect plus one small read (well under a frame), so it is
         # done here: a bad path fails before the screen takes over the terminal.
@@ -41,6 +43,8 @@ class KeyproofApp(App):
     def on_mount(self) -> None:
         if self.start_mode == "key":
             self.open_keying(self.start_pass, self.start_keyer)
+        elif self.start_mode == "resolve":
+            self.open_resolve_as(self.start_keyer)
         else:
             from .screens.home import HomeScreen
 
@@ -69,20 +73,38 @@ class KeyproofApp(App):
         self.push_screen(KeyerPrompt(pass_no), go)
 
     def open_resolve(self) -> None:
-        """Resolve discrepancies against the paper."""
-        self._not_yet("The resolution screen", "keyproof decide STUDY --keyer NAME --from FILE")
+        """Ask the resolver's initials, then resolve discrepancies against the paper."""
+        from .screens.reason_dialog import ValueDialog
+
+        def go(keyer: str | None) -> None:
+            if keyer and keyer.strip():
+                self.open_resolve_as(keyer.strip())
+
+        self.push_screen(ValueDialog("Resolving: your initials, then Enter."), go)
+
+    def open_resolve_as(self, keyer: str) -> None:
+        """The resolution screen for ``keyer`` (Esc goes home when opened from there)."""
+        from .screens.resolve import ResolveScreen
+
+        self.push_screen(ResolveScreen(self.study, keyer, can_leave=self.start_mode == "home"))
 
     def open_export(self) -> None:
         """Write the verified file."""
-        self._not_yet("Export from the app", "keyproof export STUDY --out FILE")
+        from .screens.export_dialog import ExportDialog
+
+        self.push_screen(ExportDialog(self.study_path))
 
     def open_report(self) -> None:
         """Write the verification report."""
-        self._not_yet("The report from the app", "keyproof report STUDY --out FILE")
+        from .screens.report_dialog import ReportDialog
+
+        self.push_screen(ReportDialog(self.study_path))
 
     def open_screening(self) -> None:
         """Screening before analysis."""
-        self._not_yet("Screening in the app", "keyproof screen STUDY")
+        from .screens.screening import ScreeningScreen
+
+        self.push_screen(ScreeningScreen(self.study))
 
     def _not_yet(self, what: str, command: str) -> None:
         self.notify(f"{what} is not part of this version yet; use: {command}",

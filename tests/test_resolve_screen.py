@@ -1,0 +1,333 @@
+"""The resolution screen, driven with Pilot by the keys a resolver presses.
+
+Expected values come from outside the screen: the demo's paper truth
+(``fixtures/demo/paper.csv``, written by ``fixtures/make_demo.py``), the
+values this file keys into small studies, and ``core.resolution`` read
+through its own connection after the screen is done.
+"""
+
+from __future__ import annotations
+
+import asyncio
+import functools
+from pathlib import Path
+
+import pandas as pd
+
+from core.codebook import Code, Codebook, Variable
+from core.demo import make_demo_study
+from core.resolution import set_aside_list, worklist
+from core.store import Study
+from core.values import parse
+from tui.app import make_app
+from tui.screens.reason_dialog import ChoiceDialog, ReasonDialog, ValueDialog
+from tui.screens.resolve import ResolveScreen
+from tui.screens.setaside_view import SetAsideDialog, SetAsideView
+from tui.widgets.discrepancy_detail import detail_text
+
+SIZE = (120, 44)
+FIXTURES = Path(__file__).resolve().parents[1] / "fixtures" / "demo"
+
+
+def sync(fn):
+    """Run an async Pilot test without an async pytest plugin."""
+    @functools.wraps(fn)
+    def wrapper(*args, **kwargs):
+        asyncio.run(fn(*args, **kwargs))
+    return wrapper
+
+
+async def settle(app, pilot):
+    await app.workers.wait_for_complete()
+    await pilot.pause()
+
+
+async def type_text(pilot, text: str):
+    for ch in text:
+        await pilot.press({" ": "space", ".": "full_stop", "-": "minus", ",": "comma",
+                           ":": "colon"}.get(ch, ch))
+
+
+def paper():
+    return pd.read_csv(FIXTURES / "paper.csv", dtype=str, keep_default_na=False).set_index("member_id")
+
+
+# ------------------------------------------------------------------ the demo, settled by keys
+
+
+async def press_decision(app, pilot, screen, truth: pd.DataFrame):
+    """Press what a resolver holding the paper presses for the item under the cursor."""
+    row = screen.row()
+    p, var, kind = str(row["participant"]), str(row["variable"]), str(row["kind"])
+    if kind in ("only_in_pass1", "only_in_pass2"):
+        here = 1 if kind == "only_in_pass1" else 2
+        if p not in truth.index:  # this pass mistyped the ID: the other pass's ID is on the paper
+            await pilot.press("p", str(3 - here), "enter")
+            return "pair"
+        partner = row["_partner"]
+        if not pd.isna(partner):
+            other = app.study.form(int(partner)).texts[app.study.codebook.id_variable.name]
+            if other not in truth.index:
+                await pilot.press("p", str(here), "enter")
+                return "pair"
+        # A real form the other pass never keyed: confirm, with a typed reason.
+        await pilot.press("c", "t")
+        await type_text(pilot, "paper found, not keyed in the other pass")
+        await pilot.press("enter")
+        return "confirm"
+    value = truth.loc[p, var]
+    codebook_var = app.study.codebook[var]
+    if row["cause"] == "field_shift":
+        right = 1 if row["pass1"] == value else 2
+        await pilot.press("8", str(right), "enter")
+    elif value == "":
+        await pilot.press("0", "enter")
+    elif value in codebook_var.missing_values:
+        await pilot.press("7", str(codebook_var.missing_values.index(value) + 1), "enter")
+    elif not parse(codebook_var, value).ok:
+        await pilot.press("9")
+        assert isinstance(app.screen, ValueDialog)
+        await pilot.press("enter", "enter")  # the dialog offers the pass value the paper shows
+    elif row["pass1"] == value:
+        await pilot.press("1", "enter")
+    elif row["pass2"] == value:
+        await pilot.press("2", "enter")
+    else:
+        await pilot.press("5")
+        await type_text(pilot, value)
+        await pilot.press("enter", "enter")
+    return "cell"
+
+
+def key_other_pass(study, participant: str, truth: pd.DataFrame, pass_no: int):
+    """The other keyer keys the confirmed form from the paper (as the keying screen would)."""
+    form = study.start_form(pass_no, "JM")
+    id_name = study.codebook.id_variable.name
+    study.set_value(form, id_name, participant, "keyed", "JM")
+    for name, text in truth.loc[participant].items():
+        study.set_value(form, name, text, "keyed" if text else "blank", "JM")
+    study.finish_form(form, "JM")
+
+
+@sync
+async def test_demo_resolved_by_keys_matches_the_paper(tmp_path):
+    path = make_demo_study(tmp_path)
+    truth = paper()
+    with Study.open(path, readonly=True) as study:
+        before = worklist(study)
+    cells = before[before["variable"] != ""]
+    app = make_app(path, mode="resolve", keyer="LM")
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        screen = app.screen
+        assert isinstance(screen, ResolveScreen)
+        confirmed = set()
+        for _step in range(60):
+            row = screen.row()
+            if row is None or screen.statuses[screen.current_pos] == "settled":
+                break
+            p = str(row["participant"])
+            if p in confirmed:  # confirmed and keyed since: the reload shows it settled
+                break
+            done = await press_decision(app, pilot, screen, truth)
+            await settle(app, pilot)
+            assert app.screen is screen, "every decision returns to the worklist"
+            if done == "confirm":
+                confirmed.add(p)
+                key_other_pass(app.study, p, truth, 2 if row["kind"] == "only_in_pass1" else 1)
+                await pilot.press("r")
+                await settle(app, pilot)
+        shown_open = int((screen.statuses != "settled").sum())
+
+    with Study.open(path, readonly=True) as study:
+        after = worklist(study)
+        decisions = study.decisions()
+        journal = study.journal()
+    assert int((after["_status"] != "settled").sum()) == 0
+    assert shown_open == 0
+    # Every cell decision stands at the paper's value (or blank where the paper is blank).
+    newest = decisions.sort_values("decision_id").drop_duplicates(
+        ["participant", "variable", "kind"], keep="last")
+    cell_decisions = newest[newest["variable"] != ""]
+    for r in cell_decisions.itertuples(index=False):
+        assert (r.value or "") == truth.loc[r.participant, r.variable], (r.participant, r.variable)
+        assert r.keyer == "LM" and r.reason
+    # One decision per cell the comparison listed (the shift run counts cell by cell),
+    # plus the confirmed one-pass form (796) and the pairing of 951/915.
+    assert set(zip(cell_decisions["participant"], cell_decisions["variable"], strict=True)) >= set(
+        zip(cells["participant"], cells["variable"], strict=True))
+    form_actions = sorted(newest.loc[newest["variable"] == "", "action"])
+    assert form_actions == ["one_pass_only", "pair"]
+    # The journal holds one "decision" row per decision recorded.
+    assert int((journal["action"] == "decision").sum()) == len(decisions)
+    # Each cell decision saw both pass values the comparison showed.
+    seen = before.set_index(["participant", "variable"])[["pass1", "pass2"]]
+    for r in cell_decisions.itertuples(index=False):
+        if (r.participant, r.variable) in seen.index:
+            assert (r.pass1, r.pass2) == tuple(seen.loc[(r.participant, r.variable)])
+
+
+# ------------------------------------------------------------------ small studies
+
+CB = Codebook((
+    Variable("pid", "integer", is_id=True),
+    Variable("q1", "integer", label="Mood today", min=1, max=5,
+             missing=(Code("9", "no answer"),)),
+    Variable("q2", "integer", min=1, max=5),
+    Variable("q3", "integer", min=1, max=5),
+))  # fmt: skip
+
+
+def small_study(tmp_path, keyer2="JM") -> Path:
+    path = tmp_path / "small.sqlite"
+    pass1 = pd.DataFrame({"pid": ["1", "2", "3"], "q1": ["4", "2", "5"], "q2": ["1", "1", "3"],
+                          "q3": ["2", "2", "2"]})
+    # Pass 2 disagrees at 2/q1 (3 vs 2) and 3/q2 (4 vs 3).
+    pass2 = pd.DataFrame({"pid": ["1", "2", "3"], "q1": ["4", "3", "5"], "q2": ["1", "1", "4"],
+                          "q3": ["2", "2", "2"]})
+    with Study.create(path, CB, "LM") as study:
+        study.import_pass(1, "AB", pass1)
+        study.import_pass(2, keyer2, pass2)
+    return path
+
+
+@sync
+async def test_stale_decision_reopens_and_shows_the_old_decision(tmp_path):
+    path = small_study(tmp_path)
+    app = make_app(path, mode="resolve", keyer="LM")
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        screen = app.screen
+        assert (str(screen.row()["participant"]), str(screen.row()["variable"])) == ("2", "q1")
+        await pilot.press("1")
+        assert isinstance(app.screen, ReasonDialog)
+        await pilot.press("1")  # the first reason, picked with its digit
+        await settle(app, pilot)
+        # Pass 2 is corrected after the decision: 2/q1 now reads 4 in pass 2.
+        form2 = app.study.find_forms(2, "2")[0]
+        app.study.set_value(form2, "q1", "4", "keyed", "JM")
+        await pilot.press("r")
+        await settle(app, pilot)
+        at = screen._position_of(("2", "q1", "mismatch"))
+        assert screen.statuses[at] == "stale"
+        screen.worklist.set_view(screen.worklist.view, at=at)
+        screen.show_current()
+        detail = str(screen.query_one("#resolve-detail").content)
+        assert "REOPENED" in detail and "'2'" in detail and "pass 1 right" in detail
+        assert "pass 2: 4" in detail
+    with Study.open(path, readonly=True) as study:
+        rows = worklist(study)
+    assert rows.loc[(rows["participant"] == "2") & (rows["variable"] == "q1"), "_status"].item() == "stale"
+
+
+@sync
+async def test_set_aside_and_undo_from_the_screen(tmp_path):
+    path = small_study(tmp_path)
+    app = make_app(path, mode="resolve", keyer="LM")
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        await pilot.press("a")
+        assert isinstance(app.screen, SetAsideDialog)  # participant 2 is offered, reason focused
+        await type_text(pilot, "wrong version")
+        await pilot.press("enter")
+        await type_text(pilot, "version check")
+        await pilot.press("enter")
+        await pilot.pause()
+        aside = set_aside_list(app.study)
+        assert aside[["participant", "reason", "rule"]].values.tolist() == [["2", "wrong version", "version check"]]
+        await pilot.press("v")
+        assert isinstance(app.screen, SetAsideView)
+        assert "set aside: 1" in str(app.screen.query_one("#aside-heading").content)
+        await pilot.press("u")
+        await type_text(pilot, "set aside by mistake")
+        await pilot.press("enter")
+        await pilot.pause()
+        assert set_aside_list(app.study).empty
+        assert "No participant" in str(app.screen.query_one("#aside-heading").content)
+        await pilot.press("escape")
+        assert isinstance(app.screen, ResolveScreen)
+    with Study.open(path, readonly=True) as study:
+        journal = study.journal()
+    # Both the set-aside and its undo are journal rows, the undo the newer one.
+    actions = journal.loc[journal["action"].isin(["set_aside", "restore_participant"]), "action"].tolist()
+    assert actions == ["set_aside", "restore_participant"]
+
+
+@sync
+async def test_independence_warning_is_a_notice_not_a_block(tmp_path):
+    # Barchard, Freeman, Ochoa & Stephens (2020): resolving one's own keying
+    # invites matching the entries instead of the paper; warn, never block.
+    path = small_study(tmp_path)
+    app = make_app(path, mode="resolve", keyer="AB")  # AB keyed pass 1
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        detail = str(app.screen.query_one("#resolve-detail").content)
+        assert detail.startswith("NOTE") and "AB" in detail
+        await pilot.press("2", "enter")
+        await settle(app, pilot)
+    with Study.open(path, readonly=True) as study:
+        d = study.decisions()
+    assert d[["participant", "variable", "value", "keyer"]].values.tolist() == [["2", "q1", "3", "AB"]]
+
+
+@sync
+async def test_missing_code_typed_value_filter_and_jump(tmp_path):
+    path = small_study(tmp_path)
+    app = make_app(path, mode="resolve", keyer="LM")
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        screen = app.screen
+        await pilot.press("7")
+        assert isinstance(app.screen, ChoiceDialog) and app.screen.items == ["9 = no answer"]
+        await pilot.press("1", "enter")
+        await settle(app, pilot)
+        # Next open item is 3/q2; the paper says 5, which neither pass keyed.
+        assert (str(screen.row()["participant"]), str(screen.row()["variable"])) == ("3", "q2")
+        await pilot.press("5")
+        await type_text(pilot, "5")
+        await pilot.press("enter", "3")  # reason 3: both wrong
+        await settle(app, pilot)
+        assert int((screen.statuses != "settled").sum()) == 0
+        # Jump to a form by its ID, then open the filter list and leave it.
+        await pilot.press("j")
+        await type_text(pilot, "3")
+        await pilot.press("enter")
+        assert str(screen.row()["participant"]) == "3"
+        await pilot.press("f")
+        assert isinstance(app.screen, ChoiceDialog) and app.screen.items[0] == "everything"
+        await pilot.press("escape")
+    with Study.open(path, readonly=True) as study:
+        d = study.decisions()
+    assert d[["participant", "variable", "value"]].values.tolist() == [["2", "q1", "9"], ["3", "q2", "5"]]
+    assert d["reason"].tolist()[1] == "checked against paper: both wrong"
+
+
+@sync
+async def test_value_outside_the_rule_is_refused_on_screen(tmp_path):
+    path = small_study(tmp_path)
+    app = make_app(path, mode="resolve", keyer="LM")
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        await pilot.press("5")
+        await type_text(pilot, "7")  # q1 allows 1 to 5
+        await pilot.press("enter", "1")
+        await settle(app, pilot)
+        assert isinstance(app.screen, ResolveScreen)
+        assert "outside q1's rule" in str(app.screen.query_one("#resolve-message").content)
+        assert app.screen.statuses[app.screen.current_pos] == "open"
+    with Study.open(path, readonly=True) as study:
+        assert study.decisions().empty
+
+
+def test_detail_text_shows_rule_breaker_and_shift():
+    # Pure: a row built here, neighbours built here; the rule words come from core.values.
+    row = pd.Series({"participant": "7", "variable": "q2", "kind": "mismatch", "pass1": "8",
+                     "pass2": "3", "cause": "field_shift", "detail": "", "_status": "open"})
+    around = pd.DataFrame({"variable": ["q1", "q2", "q3"], "pass1": ["4", "8", "3"],
+                           "pass2": ["4", "3", ""], "here": [False, True, False]})
+    text = detail_text(CB, row, around)
+    assert "pass 1: 8  ← breaks the rule (out of range)" in text and "pass 2: 3\n" in text
+    assert "integer 1 to 5" in text and "field shift" in text
+    lines = text.splitlines()
+    assert any(line.startswith("› q2") and line.endswith("≠") for line in lines)
+    assert any(line.startswith("  q1") and not line.endswith("≠") for line in lines)

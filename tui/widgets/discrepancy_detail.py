@@ -1,0 +1,123 @@
+"""The resolution screen's detail pane: what the resolver needs to decide one item.
+
+The text is built by :func:`detail_text`, a plain function over the codebook,
+one worklist row and the neighbouring fields (``core.resolution.neighbours``),
+so it is tested without a terminal; the widget only shows it.
+"""
+
+from __future__ import annotations
+
+import pandas as pd
+from textual.widgets import Static
+
+from core.values import allowed_text, parse
+
+CAUSE_WORDS = {
+    "transposed": "two characters swapped",
+    "neighbour_key": "a neighbouring key",
+    "dropped_char": "a character left out",
+    "extra_char": "a character too many",
+    "decimal_shift": "the decimal point moved",
+    "sign": "the sign lost or added",
+    "field_shift": "field shift: values slid by one field (settle the run with 8)",
+    "case_space": "only case or spaces differ",
+    "omitted": "one pass left it empty",
+    "other": "no simple slip explains it",
+}
+
+FORM_KINDS = ("only_in_pass1", "only_in_pass2", "duplicate_id")
+
+
+def _s(value) -> str:
+    if value is None:
+        return ""
+    try:
+        if pd.isna(value):
+            return ""
+    except (TypeError, ValueError):
+        pass
+    return str(value)
+
+
+def _shown(text: str) -> str:
+    return "(blank)" if text == "" else text
+
+
+def detail_text(codebook, row, around: pd.DataFrame | None = None,
+                warning: str | None = None) -> str:
+    """The detail of worklist ``row`` as lines of plain text.
+
+    ``around`` is ``core.resolution.neighbours(...)`` (None for form-level
+    rows); ``warning`` the independence notice, shown first when given.
+    """
+    lines = []
+    if warning:
+        lines.append(f"NOTE  {warning}")
+    participant, name, kind = _s(row["participant"]), _s(row["variable"]), _s(row["kind"])
+    status = _s(row.get("_status"))
+    if kind in FORM_KINDS:
+        lines.append(f"form {participant}  ·  {kind.replace('_', ' ')}")
+        lines.append(_s(row.get("detail")))
+        partner = _s(row.get("_partner"))
+        if kind == "duplicate_id":
+            lines.append("keys: d drop the selected pass's second form (keyed twice)")
+        else:
+            hint = f"suggested partner: form {partner}  ·  p pair with it" if partner else "no likely partner found"
+            lines.append(f"{hint}  ·  c confirm it exists in one pass only")
+    else:
+        var = codebook[name] if name in codebook else None
+        label = f" — {var.label}" if var is not None and var.label else ""
+        lines.append(f"form {participant}  ·  {name}{label}")
+        if var is not None:
+            rule = f"rule: {allowed_text(var)}"
+            if var.required:
+                rule += "  ·  required"
+            if var.applies_if:
+                rule += f"  ·  applies if {var.applies_if}"
+            lines.append(rule)
+        values = []
+        for p in (1, 2):
+            text = _s(row.get(f"pass{p}"))
+            broken = ""
+            if var is not None and text and text != "(illegible)":
+                problem = parse(var, text).problem
+                if problem:
+                    broken = f"  ← breaks the rule ({problem.replace('_', ' ')})"
+            values.append(f"pass {p}: {_shown(text)}{broken}")
+        lines.append("   ".join(values))
+        cause = _s(row.get("cause"))
+        what = kind.replace("_", " ")
+        if cause:
+            what += f"  ·  likely cause: {CAUSE_WORDS.get(cause, cause)}"
+        elif _s(row.get("detail")):
+            what += f"  ·  {_s(row.get('detail'))}"
+        lines.append(what)
+    if _s(row.get("_decision_action")):
+        word = {"stale": "REOPENED — a pass value changed after this decision:",
+                "settled": "decided:"}.get(status, "last decision:")
+        value = _s(row.get("_decision_value"))
+        state = _s(row.get("_decision_state"))
+        stood = value if value else (state or "—")
+        lines.append(f"{word} {_s(row.get('_decision_action'))} {stood!r} by "
+                     f"{_s(row.get('_decided_by'))} at {_s(row.get('_decided_at'))[:16]} "
+                     f"({_s(row.get('_decision_reason'))})")
+    if around is not None and len(around):
+        lines.append("")
+        lines.append(f"  {'field':<16}{'pass 1':<16}{'pass 2':<16}")
+        for r in around.itertuples(index=False):
+            p1 = "—" if r.pass1 is None else _shown(str(r.pass1))
+            p2 = "—" if r.pass2 is None else _shown(str(r.pass2))
+            mark = "›" if r.here else " "
+            differs = "≠" if p1 != p2 else " "
+            lines.append(f"{mark} {str(r.variable)[:15]:<16}{p1[:15]:<16}{p2[:15]:<15}{differs}")
+    return "\n".join(lines)
+
+
+class DiscrepancyDetail(Static):
+    """Shows :func:`detail_text` for the item under the cursor."""
+
+    def __init__(self, **kwargs):
+        super().__init__("", markup=False, **kwargs)
+
+    def show(self, text: str) -> None:
+        self.update(text)
