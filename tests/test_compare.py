@@ -303,3 +303,16 @@ def test_run_with_namespace_prints_the_table(tmp_path, capsys):
     out = capsys.readouterr()
     assert "transposed" in out.out and "mismatch" in out.out
     assert "1 discrepancies in 2 fields compared" in out.err
+
+
+def test_the_command_reads_a_keyed_file_as_the_importer_does():
+    from core.codebook_io import load_codebook
+    from core.importer import read_pass_file
+    from tui.commands.compare import _read_pass
+
+    cb = load_codebook(DEMO / "codebook.csv")
+    ours = _read_pass(str(DEMO / "pass2.csv"), cb, 2, None)
+    theirs = read_pass_file(DEMO / "pass2.csv", cb, 2)
+    pd.testing.assert_frame_equal(ours.text, theirs.text.astype(object))
+    pd.testing.assert_frame_equal(ours.state, theirs.state.astype(object))
+    assert ours.label.tolist() == theirs.label.tolist()
