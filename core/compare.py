@@ -324,18 +324,38 @@ class _Side:
     missing: np.ndarray  # a declared missing code
 
 
-def _column_codes(col: pd.Series, pos: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Codes (-1 = no text) of the paired rows and the column's distinct texts."""
-    codes, uniques = pd.factorize(col)
-    return codes[pos], np.asarray(uniques, dtype=object)
+def _pair_codes(col1: pd.Series, col2: pd.Series, pos1: np.ndarray, pos2: np.ndarray):
+    """Codes of the paired rows of one column in both passes (-1 = no text), and the texts.
+
+    Most cells of two passes are equal, so only pass 1 is hashed in full;
+    pass 2 borrows its codes and hashes just the cells that differ.
+    """
+    a = col1.to_numpy(dtype=object)[pos1]
+    b = col2.to_numpy(dtype=object)[pos2]
+    codes_a, uniques = pd.factorize(a)
+    uniques = np.asarray(uniques, dtype=object)
+    try:
+        diff = ~np.asarray(a == b, dtype=bool)
+    except (TypeError, ValueError):  # exotic cell objects: hash pass 2 in full
+        diff = np.ones(len(a), dtype=bool)
+    codes_b = codes_a.copy()
+    if diff.any():
+        codes_d, uniques_d = pd.factorize(b[diff])
+        uniques_d = np.asarray(uniques_d, dtype=object)
+        where = pd.Index(uniques, dtype=object).get_indexer(uniques_d)
+        new = where < 0
+        where[new] = len(uniques) + np.arange(int(new.sum()))
+        uniques = np.concatenate([uniques, uniques_d[new]])
+        codes_b[diff] = np.append(where, -1)[codes_d]
+    return codes_a, codes_b, uniques
 
 
 def _sides(codebook: Codebook, p1: PassData, p2: PassData, forms1, forms2, progress):
     """Both passes as arrays; plus, per column, its distinct texts and their canonical forms.
 
-    Each column is factorised on its own (no copy of the frame); the value
-    rules then run once per group of variables with the same rules, on the
-    group's distinct texts only.
+    Each column is factorised on its own (no copy of the frame; pass 2 only
+    where it differs from pass 1); the value rules then run once per group of
+    variables with the same rules, on the group's distinct texts only.
     """
     names = codebook.names
     n, m = len(forms1), len(names)
@@ -344,11 +364,12 @@ def _sides(codebook: Codebook, p1: PassData, p2: PassData, forms1, forms2, progr
                    np.empty((n, m), np.int64), np.empty((n, m), bool),
                    np.empty((n, m), np.int8), np.empty((n, m), bool)) for _ in passes]
     state_code = {KEYED: _K, BLANK: _B, ILLEGIBLE: _I}
-    for side, (p, pos) in zip(sides, passes, strict=True):
-        for j, name in enumerate(names):
-            codes, uniques = _column_codes(p.state[name], pos)
-            lookup = np.array([state_code.get(u, _N) for u in uniques] + [_N], dtype=np.int8)
-            side.state[:, j] = lookup[codes]
+    (_, pos1), (_, pos2) = passes
+    for j, name in enumerate(names):
+        codes_a, codes_b, uniques = _pair_codes(p1.state[name], p2.state[name], pos1, pos2)
+        lookup = np.array([state_code.get(u, _N) for u in uniques] + [_N], dtype=np.int8)
+        sides[0].state[:, j] = lookup[codes_a]
+        sides[1].state[:, j] = lookup[codes_b]
     groups: dict[tuple, list[int]] = {}
     for j, var in enumerate(codebook.variables):
         groups.setdefault(_signature(var), []).append(j)
@@ -357,9 +378,9 @@ def _sides(codebook: Codebook, p1: PassData, p2: PassData, forms1, forms2, progr
     global_ids: dict[str, int] = {}
     for done, cols in enumerate(groups.values(), start=1):
         var = codebook.variables[cols[0]]
-        parts = {(k, j): _column_codes(p.text[names[j]], pos)
-                 for k, (p, pos) in enumerate(passes) for j in cols}
-        uniques = pd.unique(np.concatenate([u for _, u in parts.values()] + [np.array([], object)]))
+        parts = {j: _pair_codes(p1.text[names[j]], p2.text[names[j]], pos1, pos2) for j in cols}
+        uniques = pd.unique(np.concatenate([u for *_, u in parts.values()]
+                                           + [np.array([], object)]))
         index = pd.Index(uniques, dtype=object)
         canon, valid = canonical_series(var, pd.Series(uniques, dtype=object))
         problem = rule_problems(var, canon, valid).map(_PROBLEM_CODE).to_numpy(dtype=np.int8)
@@ -376,16 +397,16 @@ def _sides(codebook: Codebook, p1: PassData, p2: PassData, forms1, forms2, progr
         missing_ext = np.append(missing, False)
         texts_ext = np.append(uniques.astype(object), None)
         canon_ext = np.append(canon_arr, None)
-        for (k, j), (codes, col_uniques) in parts.items():
+        for j, (codes_a, codes_b, col_uniques) in parts.items():
             # Index -1 (no text at all) picks the appended last element.
             remap = np.append(index.get_indexer(col_uniques), -1)
-            c = remap[codes]
-            side = sides[k]
-            side.ucode[:, j] = c
-            side.gid[:, j] = gid[c]
-            side.valid[:, j] = valid_ext[c]
-            side.problem[:, j] = problem_ext[c]
-            side.missing[:, j] = missing_ext[c]
+            for side, codes in ((sides[0], codes_a), (sides[1], codes_b)):
+                c = remap[codes]
+                side.ucode[:, j] = c
+                side.gid[:, j] = gid[c]
+                side.valid[:, j] = valid_ext[c]
+                side.problem[:, j] = problem_ext[c]
+                side.missing[:, j] = missing_ext[c]
         for j in cols:
             texts_of[j] = texts_ext
             canon_of[j] = canon_ext
