@@ -342,12 +342,21 @@ def _pair_codes(col1: pd.Series, col2: pd.Series, pos1: np.ndarray, pos2: np.nda
     if diff.any():
         codes_d, uniques_d = pd.factorize(b[diff])
         uniques_d = np.asarray(uniques_d, dtype=object)
-        where = pd.Index(uniques, dtype=object).get_indexer(uniques_d)
+        where = _positions(uniques, uniques_d)
         new = where < 0
         where[new] = len(uniques) + np.arange(int(new.sum()))
         uniques = np.concatenate([uniques, uniques_d[new]])
         codes_b[diff] = np.append(where, -1)[codes_d]
     return codes_a, codes_b, uniques
+
+
+def _positions(reference: np.ndarray, values: np.ndarray, index: pd.Index | None = None):
+    """Position of each value in ``reference`` (-1 if absent); a dict for the usual small case."""
+    if len(reference) + len(values) > 5_000:
+        index = index if index is not None else pd.Index(reference, dtype=object)
+        return index.get_indexer(values)
+    where = {v: i for i, v in enumerate(reference.tolist())}
+    return np.array([where.get(v, -1) for v in values.tolist()], dtype=np.intp)
 
 
 def _sides(codebook: Codebook, p1: PassData, p2: PassData, forms1, forms2, progress):
@@ -360,9 +369,10 @@ def _sides(codebook: Codebook, p1: PassData, p2: PassData, forms1, forms2, progr
     names = codebook.names
     n, m = len(forms1), len(names)
     passes = ((p1, p1.text.index.get_indexer(forms1)), (p2, p2.text.index.get_indexer(forms2)))
-    sides = [_Side(np.empty((n, m), np.int8), np.empty((n, m), np.int32),
-                   np.empty((n, m), np.int64), np.empty((n, m), bool),
-                   np.empty((n, m), np.int8), np.empty((n, m), bool)) for _ in passes]
+    # Column-major, since they are filled one variable (column) at a time.
+    sides = [_Side(*(np.empty((n, m), dtype, order="F")
+                     for dtype in (np.int8, np.int32, np.int64, bool, np.int8, bool)))
+             for _ in passes]
     state_code = {KEYED: _K, BLANK: _B, ILLEGIBLE: _I}
     (_, pos1), (_, pos2) = passes
     for j, name in enumerate(names):
@@ -399,7 +409,7 @@ def _sides(codebook: Codebook, p1: PassData, p2: PassData, forms1, forms2, progr
         canon_ext = np.append(canon_arr, None)
         for j, (codes_a, codes_b, col_uniques) in parts.items():
             # Index -1 (no text at all) picks the appended last element.
-            remap = np.append(index.get_indexer(col_uniques), -1)
+            remap = np.append(_positions(uniques, col_uniques, index), -1)
             for side, codes in ((sides[0], codes_a), (sides[1], codes_b)):
                 c = remap[codes]
                 side.ucode[:, j] = c
