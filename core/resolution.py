@@ -803,6 +803,10 @@ def _natural_order(ids: pd.Index) -> list[int]:
     """Positions of ``ids`` in natural order (2 before 10; texts after numbers)."""
     import re
 
+    numbers = pd.to_numeric(pd.Series(ids, dtype=object), errors="coerce")
+    if len(ids) and numbers.notna().all() and (numbers % 1 == 0).all():
+        return np.argsort(numbers.to_numpy(), kind="stable").tolist()  # the usual all-number IDs
+
     def key(text: str):
         parts = re.split(r"(\d+)", str(text))
         return [(0, int(p), "") if p.isdigit() else (1, 0, p) for p in parts if p]
