@@ -1,0 +1,167 @@
+"""Export the verified file from the app: where to, draft or not, and a progress bar.
+
+The export runs in a worker thread on its own read-only connection and
+posts its progress (variables typed, then rows written) to the bar, so the
+app keeps answering keys meanwhile. While anything is open the export is
+refused and nothing is written; the dialog then shows what is open, by
+kind, and how to go on. Errors are shown in the dialog; the app keeps
+running. Writes are ``core.export``'s, atomic, so leaving mid-way can never
+leave half a file: the dialog only asks the user to wait.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from textual import work
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Vertical
+from textual.screen import ModalScreen
+from textual.widgets import Checkbox, Input, ProgressBar, Static
+
+from core.errors import KeyproofError, OpenWorkError
+
+DIALOG_CSS = """
+{name} {{ align: center middle; }}
+{name} .dialog-box {{
+    width: 84; height: auto; max-height: 90%;
+    padding: 1 2; background: $surface; border: round $primary;
+}}
+{name} .dialog-title {{ text-style: bold; margin-bottom: 1; }}
+{name} .dialog-note {{ color: $warning; height: auto; }}
+{name} .dialog-done {{ height: auto; }}
+{name} ProgressBar {{ margin: 1 0 0 0; }}
+"""
+
+
+def default_target(study_path, ending: str) -> Path:
+    """A file beside the study: ``garden.sqlite`` -> ``garden-verified.csv``.
+
+    >>> default_target("studies/garden.sqlite", "-verified.csv").as_posix()
+    'studies/garden-verified.csv'
+    """
+    path = Path(study_path)
+    return path.with_name(path.stem + ending)
+
+
+def refusal_text(exc: OpenWorkError) -> str:
+    """What an export refused for open work says: the counts by kind and the ways on."""
+    total = sum(exc.counts.values())
+    kinds = ", ".join(f"{kind} {n}" for kind, n in sorted(exc.counts.items()))
+    return (f"Refused: {total} discrepanc{'y is' if total == 1 else 'ies are'} still open "
+            f"({kinds}); nothing was written. Settle them (r on the home screen), or tick "
+            "draft (Tab to it, space) to export with open cells left empty.")  # fmt: skip
+
+
+class ExportDialog(ModalScreen[None]):
+    """Target, optional identifying file, draft toggle; Enter exports, Esc closes."""
+
+    DEFAULT_CSS = DIALOG_CSS.format(name="ExportDialog")
+    BINDINGS = [Binding("escape", "close", "close")]
+
+    def __init__(self, study_path, **kwargs):
+        super().__init__(**kwargs)
+        self.study_path = Path(study_path)
+        self.running = False
+        self.result = None
+        """The last ``ExportResult`` written (None until an export succeeds)."""
+
+    def compose(self) -> ComposeResult:
+        with Vertical(classes="dialog-box"):
+            yield Static("Export the verified file: .csv, .xlsx, or a folder for a Data Package",
+                         classes="dialog-title", markup=False)
+            yield Input(value=str(default_target(self.study_path, "-verified.csv")),
+                        placeholder="where to write", id="export-path")
+            yield Input(placeholder="identifying variables to this separate file (optional)",
+                        id="export-identifying")
+            yield Checkbox("draft: export although work is open (open cells left empty)",
+                           id="export-draft")
+            yield ProgressBar(show_eta=False, id="export-progress")
+            yield Static("Enter exports; Esc closes.", id="export-phase", markup=False)
+            yield Static("", classes="dialog-note", id="export-problem", markup=False)
+            yield Static("", classes="dialog-done", id="export-done", markup=False)
+
+    def on_mount(self) -> None:
+        self.query_one("#export-path", Input).focus()
+
+    def on_input_submitted(self, event: Input.Submitted) -> None:
+        event.stop()
+        self.start()
+
+    def start(self) -> None:
+        """Export what the dialog says (ignored while an export is running)."""
+        if self.running:
+            return
+        out = self.query_one("#export-path", Input).value.strip()
+        ident = self.query_one("#export-identifying", Input).value.strip() or None
+        if not out:
+            self._say("Where to? Type a .csv or .xlsx file, or a folder.")
+            return
+        self.running = True
+        self._say("")
+        self.query_one("#export-done", Static).update("")
+        self.query_one("#export-progress", ProgressBar).update(total=None, progress=0)
+        self.query_one("#export-phase", Static).update("starting…")
+        self.export(out, ident, self.query_one("#export-draft", Checkbox).value)
+
+    @work(thread=True, exclusive=True, group="export")
+    def export(self, out: str, identifying: str | None, draft: bool) -> None:
+        from core import export as exporting
+        from core.errors import ExportError
+        from core.resolution import verified_table
+        from core.store import Study
+
+        call = self.app.call_from_thread
+        try:
+            _, target = exporting.target_of(out, draft)
+            for given in (target, Path(identifying) if identifying else None):
+                if given is not None and given.resolve() == self.study_path.resolve():
+                    raise ExportError(f"{given}: this is the study file — choose another name.")
+            with Study.open(self.study_path, readonly=True) as study:
+                verified = verified_table(
+                    study, draft=draft,
+                    progress=lambda d, t: call(self._progress, "reading variables", d, t))
+            result = exporting.export(
+                verified, out, identifying=identifying,
+                progress=lambda d, t: call(self._progress, "writing rows", d, t))
+        except OpenWorkError as exc:
+            call(self._finished, None, refusal_text(exc))
+        except KeyproofError as exc:
+            call(self._finished, None, str(exc))
+        else:
+            call(self._finished, result, "")
+
+    def _progress(self, phase: str, done: int, total: int) -> None:
+        self.query_one("#export-phase", Static).update(f"{phase}: {done:,} of {total:,}")
+        self.query_one("#export-progress", ProgressBar).update(total=max(total, 1), progress=done)
+
+    def _finished(self, result, problem: str) -> None:
+        self.running = False
+        bar = self.query_one("#export-progress", ProgressBar)
+        if result is None:
+            bar.update(total=None, progress=0)
+            self.query_one("#export-phase", Static).update("Enter exports; Esc closes.")
+            self._say(problem)
+            return
+        self.result = result
+        self.query_one("#export-phase", Static).update("done")
+        draft = " (DRAFT)" if result.provenance and result.provenance.draft else ""
+        lines = [f"Wrote {result.path}{draft}: {result.rows} participants, "
+                 f"{result.columns} variables; {result.set_aside} set aside, listed apart."]
+        if result.open_cells:
+            lines.append(f"{result.open_cells} open cell(s) left empty and listed beside it.")
+        if result.left_out:
+            lines.append(f"Identifying variables left out: {', '.join(result.left_out)}.")
+        self.query_one("#export-done", Static).update("\n".join(lines))
+        self.notify(f"Wrote {result.path.name}", title="export")
+
+    def _say(self, text: str) -> None:
+        self.query_one("#export-problem", Static).update(text)
+
+    def action_close(self) -> None:
+        if self.running:
+            self.notify("Still writing — the file appears whole or not at all; "
+                        "wait for it to finish.", title="export")  # fmt: skip
+            return
+        self.dismiss(None)
