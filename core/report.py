@@ -329,9 +329,10 @@ def build_report(study, now: datetime | None = None) -> Report:
     from .export import keyproof_version
     from .resolution import worklist
 
+    rows = worklist(study)
     report = assemble_report(
         study.codebook,
-        worklist(study),
+        rows,
         study.forms(),
         study.set_asides(),
         study=str(getattr(study, "name", "")),
@@ -339,19 +340,20 @@ def build_report(study, now: datetime | None = None) -> Report:
         now=now,
         version=keyproof_version(),
     )
-    report.screening, note = screening_section(study)
+    report.screening, note = screening_section(study, rows)
     if note:
         report.notes.append(note)
     return report
 
 
-def screening_section(study) -> tuple[pd.DataFrame | None, str]:
+def screening_section(study, rows: pd.DataFrame | None = None) -> tuple[pd.DataFrame | None, str]:
     """Hook for the screening section: scale reliability of the verified table.
 
     Returns ``(table, note)``: one row per scale (scale, items, alpha, n,
     Spearman-Brown split-half) from ``core.screening``, or None and a note
     saying why it is missing. Built on the draft verified table, so it works
-    before every discrepancy is settled (the note then says so).
+    before every discrepancy is settled (the note then says so). ``rows``
+    is the worklist when already computed.
     """
     try:
         from .resolution import verified_table
@@ -361,7 +363,7 @@ def screening_section(study) -> tuple[pd.DataFrame | None, str]:
     from .errors import KeyproofError
 
     try:
-        verified = verified_table(study, draft=True)
+        verified = verified_table(study, draft=True, rows=rows)
         tables = screen(verified.data, study.codebook).tables()
     except KeyproofError as exc:
         return None, f"screening left out: {exc}"

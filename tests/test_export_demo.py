@@ -190,6 +190,9 @@ def test_report_finds_exactly_the_planted_slips(demo, tmp_path, capsys):
     kept = slips[slips["kind"] == "out_of_range"]
     assert report.kept[["participant", "variable"]].values.tolist() == kept[
         ["participant", "variable"]].values.tolist()
+    # The screening hook is filled from core.screening: the codebook's three scales.
+    assert report.screening is not None
+    assert sorted(report.screening["scale"]) == ["belonging", "sharing", "workdays"]
     assert main(["report", str(resolved), "--out", str(tmp_path / "r.html")]) == 0
     html = (tmp_path / "r.html").read_text(encoding="utf-8")
     for keyer, errors in planted.items():
