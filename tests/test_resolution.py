@@ -487,7 +487,16 @@ def test_the_demo_study_resolved_with_its_paper_equals_the_paper(tmp_path):
     assert set(zip(kept["participant"], kept["variable"], strict=True)) == set(
         zip(on_paper["participant"], on_paper["variable"], strict=True)
     )
-    assert (journal["action"] == "decision").sum() == len(verified.decisions)
+    # Every decision is a journal row: UTC time, resolver, both pass values it saw, value, reason.
+    rows = journal[journal["action"] == "decision"]
+    assert len(rows) == len(verified.decisions)
+    details = [json.loads(d) for d in rows["detail"]]
+    decided = verified.decisions
+    assert [(d["pass1"] or "", d["pass2"] or "") for d in details] == list(
+        zip(decided["pass1"], decided["pass2"], strict=True)
+    )
+    assert rows["at"].str.endswith("Z").all() and set(rows["who"]) == {"LM"}
+    assert rows["reason"].tolist() == decided["reason"].tolist()
 
 
 def test_setaside_command_sets_aside_lists_and_undoes(study, capsys):
