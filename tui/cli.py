@@ -98,6 +98,13 @@ def main(argv: list[str] | None = None) -> int:
     except KeyboardInterrupt:
         sys.stderr.write(f"keyproof {name}: interrupted.\n")
         return 130
+    except BrokenPipeError:
+        # Output piped into `head` or a pager that quit early: not an error of ours.
+        # Point stdout at devnull so the interpreter's final flush stays quiet.
+        import os
+
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return 0
 
 
 def entry() -> None:
