@@ -1,9 +1,8 @@
 """The Textual app: opens a study and wires the screens together.
 
-Kept small on purpose: it opens the study, pushes the home or keying screen,
-and offers one ``open_*`` hook per way to go on from home. A hook whose
-screen does not exist yet says so in a notification instead of failing, so
-the screens written later plug in by replacing one method body.
+Kept small on purpose: it opens the study, pushes the home, keying or
+resolution screen, and offers one ``open_*`` hook per way to go on from home;
+each hook imports its screen only when it is used, so start-up stays quick.
 """
 
 from __future__ import annotations
@@ -105,10 +104,6 @@ class KeyproofApp(App):
         from .screens.screening import ScreeningScreen
 
         self.push_screen(ScreeningScreen(self.study))
-
-    def _not_yet(self, what: str, command: str) -> None:
-        self.notify(f"{what} is not part of this version yet; use: {command}",
-                    title="not available yet", severity="warning")
 
 
 def make_app(study_path, *, mode: str = "home", pass_no: int | None = None,
