@@ -530,6 +530,13 @@ def drop_duplicate(study, form_id: int, reason: str, keyer: str, row=None) -> in
     id_name = study.codebook.id_variable.name
     participant = _canonical_id(study.codebook, record.texts.get(id_name) or "")
     pass_no = record.pass_no
+    forms = study.forms(pass_no)
+    twins = (_canonical_ids(study.codebook, forms["participant"]) == participant) & ~forms["dropped"]
+    if record.dropped or int(twins.sum()) < 2:  # the same ID as read by its type: 07 = 7
+        raise DecisionError(
+            f"form {form_id} is the only form of participant {participant} in pass {pass_no} "
+            "— drop only one of two forms with the same ID."
+        )
     p1 = _text(row, "pass1") if row is not None else ""
     p2 = _text(row, "pass2") if row is not None else ""
     with study.transaction():

@@ -258,6 +258,8 @@ def test_drop_duplicate_marks_the_form_dropped_and_never_deletes_it(tmp_path):
     assert s.find_forms(1, "1", include_dropped=True) == [first, second]
     assert _last_decision(s)["action"] == "drop"
     assert "drop_form" in set(s.journal()["action"])
+    with pytest.raises(DecisionError, match="only form of participant 1 in pass 1"):
+        drop_duplicate(s, first, "same form keyed twice", "LM")
     s.close()
 
 
