@@ -20,6 +20,10 @@ Every file is written through :mod:`core.atomic`: a target is either the old
 complete file or the new complete one. The analysis file is written last, so
 a new analysis file always comes with its new companions.
 
+A little over the house's ~600 lines on purpose: the three formats share
+their companions (provenance, set-aside list, identifying file) and the
+schema adjustments; move the Data Package writer out if a fourth format comes.
+
 Trade-off: values are written as their typed form (``7``, ``3.5``,
 ``2024-05-01``) rather than the keyed text, so a declared missing code of a
 ``number`` variable is written the way the number prints (``-9.0``); the
