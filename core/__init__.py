@@ -1,9 +1,13 @@
 """keyproof's core: codebook, values, store, comparison, decisions, export.
 
-Importable and testable without a terminal; never imports Textual.
+Importable and testable without a terminal; never imports Textual. This is
+the public face: callers use the names below; everything else is a helper.
 """
 
 from .codebook import Code, Codebook, Variable
+from .codebook_io import CodebookDiff, diff_codebooks, load_codebook
+from .conditions import Condition, parse_condition
+from .demo import make_demo_study
 from .errors import (
     CodebookError,
     CompareError,
@@ -15,20 +19,45 @@ from .errors import (
     StoreError,
     UsageError,
 )
+from .importer import ImportResult, import_file, read_keyed_file, read_pass_file
+from .journal import AuditResult
 from .passdata import PassData
+from .resolution import apply_decisions_file, verified_table, worklist
+from .screening import Screening, screen
+from .store import FormRecord, Study
+from .verified import Verified
 
 __all__ = [
+    "AuditResult",
     "Code",
     "Codebook",
+    "CodebookDiff",
     "CodebookError",
     "CompareError",
+    "Condition",
     "DecisionError",
     "ExportError",
+    "FormRecord",
     "ImportFileError",
+    "ImportResult",
     "KeyproofError",
     "OpenWorkError",
     "PassData",
+    "Screening",
     "StoreError",
+    "Study",
     "UsageError",
     "Variable",
+    "Verified",
+    "apply_decisions_file",
+    "diff_codebooks",
+    "import_file",
+    "load_codebook",
+    "make_demo_study",
+    "parse_condition",
+    "read_keyed_file",
+    "read_pass_file",
+    "screen",
+    "verified_table",
+    "worklist",
 ]
