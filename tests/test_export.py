@@ -81,6 +81,12 @@ def _verified(draft: bool = False, **overrides) -> Verified:
 NOW = datetime(2024, 7, 2, 9, 30, tzinfo=UTC)
 
 
+def _assert_valid(package: Path) -> None:
+    """frictionless (the reference implementation of the Data Package standard) accepts it."""
+    report = validate(package / "datapackage.json")
+    assert report.valid, report.flatten(["rowNumber", "fieldName", "type", "note"])
+
+
 def _all_text(path: Path) -> str:
     """Every cell of every sheet, or the whole text, of an exported file or folder."""
     if path.is_dir():
@@ -186,6 +192,8 @@ def test_no_analysis_file_holds_an_identifying_variable(tmp_path):
     ident.parent.mkdir()
     for out in ("v.csv", "v.xlsx", "pkg"):
         result = export(_verified(), tmp_path / out, identifying=ident, now=NOW)
+        if result.format == "datapackage":
+            _assert_valid(result.path)
         texts = [_all_text(p) for p in [*result.files, result.path] if p != ident]
         for text in texts:
             for value in (*NAMES, *EMAILS, "Cy Ortgea"):
@@ -224,6 +232,7 @@ def test_draft_is_marked_in_name_and_metadata_and_lists_open_cells(tmp_path):
     ]
     package = export(_verified(draft=True), tmp_path / "pkg", now=NOW)
     assert package.path.name == "pkg.DRAFT"
+    _assert_valid(package.path)
     assert "(draft)" in json.loads((package.path / "datapackage.json").read_text())["title"]
     assert (tmp_path / "pkg.DRAFT.open.csv").exists()
     book = export(_verified(draft=True), tmp_path / "v.xlsx", now=NOW)
@@ -249,6 +258,7 @@ def test_bad_targets_are_one_sentence_errors(tmp_path):
 def test_a_second_export_replaces_the_first_completely(tmp_path):
     export(_verified(), tmp_path / "pkg", now=NOW)
     export(_verified(age=[40, 41, 42, 43]), tmp_path / "pkg", now=NOW)
+    _assert_valid(tmp_path / "pkg")
     back = pd.read_csv(tmp_path / "pkg" / "data.csv")
     assert list(back["age"]) == [40, 41, 42, 43]
     # Nothing of the swap is left beside the target.
@@ -287,7 +297,10 @@ def test_progress_reaches_every_row(tmp_path):
     seen = []
     for out in ("v.csv", "v.xlsx", "pkg"):
         seen.clear()
-        export(Verified(codebook, data), tmp_path / out, progress=lambda d, t: seen.append((d, t)))
+        result = export(Verified(codebook, data), tmp_path / out,
+                        progress=lambda d, t: seen.append((d, t)))
+        if result.format == "datapackage":
+            _assert_valid(result.path)
         assert seen[-1] == (rows, rows), out
         assert [d for d, _ in seen] == sorted(d for d, _ in seen)
 

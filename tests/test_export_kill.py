@@ -19,6 +19,7 @@ from pathlib import Path
 
 import pandas as pd
 import pytest
+from frictionless import validate
 
 pytestmark = pytest.mark.slow
 
@@ -100,6 +101,11 @@ def test_sigkill_leaves_the_old_or_the_complete_new_export(tmp_path):
         seconds = _export_here(tmp_path / "new" / name, NEW, rows, cols)
         refs[name] = (_content(tmp_path / "old" / name), _content(tmp_path / "new" / name),
                       seconds)
+        if name == "pkg":
+            for which in ("old", "new"):
+                # frictionless: the reference implementation of the Data Package standard.
+                report = validate(tmp_path / which / name / "datapackage.json")
+                assert report.valid, report.flatten(["rowNumber", "fieldName", "type"])
     names = list(SIZES)
     outcomes = []
     for moment in range(10):
@@ -122,6 +128,8 @@ def test_sigkill_leaves_the_old_or_the_complete_new_export(tmp_path):
         assert started
         seen = _content(target)
         assert seen in (old, new), f"{name} after a kill at moment {moment} is neither"
+        if name == "pkg" and seen == new:
+            assert validate(target / "datapackage.json").valid
         outcomes.append("new" if seen == new else "old")
     print("kills that left the old export / the new one:",
           outcomes.count("old"), "/", outcomes.count("new"))
