@@ -181,7 +181,8 @@ async def test_a_rule_applied_from_the_view_sets_everyone_it_catches_aside(study
         assert isinstance(app.screen, ScreeningScreen)
         overview = page(app)
         assert "With and without set-aside participants" in overview
-        assert f"rule z>2:{variable}" in overview
+        for member in expected:
+            assert f"  {member} (rule z>2:{variable})" in overview
     with Study.open(study_path, readonly=True) as study:
         aside = study.set_asides()
     assert sorted(aside["participant"], key=int) == expected

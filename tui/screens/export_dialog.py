@@ -83,6 +83,8 @@ class ExportDialog(ModalScreen[None]):
             yield Static("", classes="dialog-done", id="export-done", markup=False)
 
     def on_mount(self) -> None:
+        # The bar appears once an export starts (an idle bar would read as busy).
+        self.query_one("#export-progress", ProgressBar).display = False
         self.query_one("#export-path", Input).focus()
 
     def on_input_submitted(self, event: Input.Submitted) -> None:
@@ -101,7 +103,9 @@ class ExportDialog(ModalScreen[None]):
         self.running = True
         self._say("")
         self.query_one("#export-done", Static).update("")
-        self.query_one("#export-progress", ProgressBar).update(total=None, progress=0)
+        bar = self.query_one("#export-progress", ProgressBar)
+        bar.update(total=None, progress=0)
+        bar.display = True
         self.query_one("#export-phase", Static).update("starting…")
         self.export(out, ident, self.query_one("#export-draft", Checkbox).value)
 
@@ -141,6 +145,7 @@ class ExportDialog(ModalScreen[None]):
         bar = self.query_one("#export-progress", ProgressBar)
         if result is None:
             bar.update(total=None, progress=0)
+            bar.display = False
             self.query_one("#export-phase", Static).update("Enter exports; Esc closes.")
             self._say(problem)
             return

@@ -9,6 +9,7 @@ so the app and the command line agree to the digit.
 
 from __future__ import annotations
 
+import textwrap
 from dataclasses import dataclass, field
 
 import pandas as pd
@@ -24,6 +25,8 @@ from tui.commands.screen import (
 )
 
 BAR_WIDTH = 30
+#: Prose lines are wrapped to this width; tables keep their own (the page scrolls).
+PROSE_WIDTH = 88
 
 #: Overview of the scales: fewer columns than the command line, to fit beside the menu.
 SCALE_OVERVIEW = {
@@ -72,7 +75,9 @@ def page_text(view: ScreeningData, page: str) -> str:
 def overview_text(view: ScreeningData) -> str:
     r = view.result
     n = len(view.data)
-    lines = [f"Screening of {view.study}: {n} participant{'s' if n != 1 else ''}.", *view.notes]
+    lines = [f"Screening of {view.study}: {n} participant{'s' if n != 1 else ''}."]
+    for note in view.notes:
+        lines += _prose(note)
     summary = r.tables()["summary"]
     scales = summary[summary["kind"] == "scale"]
     if len(scales):
@@ -84,7 +89,7 @@ def overview_text(view: ScreeningData) -> str:
             if bool(row.negative)
         ]
         if negatives:
-            lines.append("Negative item-rest r (a missed reverse key?): " + ", ".join(negatives))
+            lines += _prose("Negative item-rest r (a missed reverse key?): " + ", ".join(negatives))
     kappa = summary[(summary["kind"] == "variable") & summary["kappa_n"].notna()]
     if len(kappa):
         lines += ["", "Agreement of the two passes (Cohen's kappa)",
@@ -97,8 +102,8 @@ def overview_text(view: ScreeningData) -> str:
     lines += ["", "Outlier candidates"]
     if flagged:
         for name, d in flagged:
-            lines.append(f"  {name}: |z| > 3.29: {_ids(d.outliers_z)}; "
-                         f"beyond fences: {_ids(d.outliers_tukey)}")  # fmt: skip
+            lines += _prose(f"{name}: |z| > 3.29: {_ids(d.outliers_z)}; "
+                            f"beyond fences: {_ids(d.outliers_tukey)}", "  ")  # fmt: skip
     else:
         lines.append("  none by |z| > 3.29 or Tukey's fences")
     if r.sensitivity is not None and len(r.sensitivity):
@@ -107,9 +112,9 @@ def overview_text(view: ScreeningData) -> str:
     if len(view.set_aside):
         lines += ["", "Set aside now"]
         for row in view.set_aside.itertuples():
-            rule = f" [rule {row.rule}]" if str(row.rule or "") else ""
-            lines.append(f"  {row.participant}: {row.reason}{rule}")
-    lines += ["", FOOTNOTE]
+            rule = f" (rule {row.rule})" if str(row.rule or "") else ""
+            lines += [f"  {row.participant}{rule}", *_prose(str(row.reason), "    ")]
+    lines += ["", *_prose(FOOTNOTE)]
     return "\n".join(lines)
 
 
@@ -117,7 +122,7 @@ def scale_text(view: ScreeningData, name: str) -> str:
     s = view.result.scales[name]
     a = s.alpha
     lines = [
-        f"Scale {name}: {a.k} items ({', '.join(s.items)}), scored as the {s.method}",
+        *_prose(f"Scale {name}: {a.k} items ({', '.join(s.items)}), scored as the {s.method}"),
         f"Cronbach's alpha {fmt(a.alpha, 3) or 'not defined'} (listwise, n used {a.n_used})",
         f"Split-half (odd/even items): r {fmt(s.split.r_halves, 3) or '—'}, "
         f"Spearman-Brown {fmt(s.split.spearman_brown, 3) or '—'} (n {s.split.n_used})",
@@ -129,7 +134,8 @@ def scale_text(view: ScreeningData, name: str) -> str:
     ]
     flagged = s.item_table.loc[s.item_table["negative"].astype(bool), "item"].tolist()
     if flagged:
-        lines.append(f"Negative item-rest r: {', '.join(flagged)} — check for a missed reverse key.")
+        lines += _prose(f"Negative item-rest r: {', '.join(flagged)} — check for a missed "
+                        "reverse key.")  # fmt: skip
     lines += ["", f"Score of {name}", *_numbers(s.score)]
     lines += _sensitivity_lines(view, name)
     if view.result.scores is not None and name in view.result.scores:
@@ -185,6 +191,11 @@ def _sensitivity_lines(view: ScreeningData, name: str) -> list[str]:
         return []
     return ["", "With and without set-aside participants",
             *text_table(sens[sens["name"] == name], SENSITIVITY_COLUMNS)]  # fmt: skip
+
+
+def _prose(text: str, indent: str = "") -> list[str]:
+    return textwrap.wrap(text, PROSE_WIDTH, initial_indent=indent,
+                         subsequent_indent=indent + "  ") or [""]
 
 
 def _ids(ids: tuple[str, ...], shown: int = 8) -> str:
