@@ -85,7 +85,10 @@ class ResolveScreen(Screen):
         """("kind", k) or ("variable", v) while the list is filtered."""
         self.reasons: list[str] = list(res.DEFAULT_REASONS)
         self._warnings: dict[str, str | None] = {}
+        self.own: set[str] = set()
+        """Participants with a form keyed by this resolver (found once per load)."""
         self._shape: str | None = None
+        self._counts: str | None = None
         self._land_on: tuple[str, str, str] | None = None
 
     def compose(self) -> ComposeResult:
@@ -107,18 +110,22 @@ class ResolveScreen(Screen):
         try:
             with Study.open(self.study.path, readonly=True) as study:
                 rows, reasons = res.worklist(study), res.reasons(study)
+                own = keyed_by_resolver(study, self.keyer)
         except KeyproofError as exc:
             self.app.call_from_thread(self.say, f"could not load the worklist: {exc}")
             return
-        self.app.call_from_thread(self.show_worklist, rows, reasons)
+        self.app.call_from_thread(self.show_worklist, rows, reasons, own)
 
-    def show_worklist(self, rows, reasons: list[str] | None = None) -> None:
+    def show_worklist(self, rows, reasons: list[str] | None = None, own: set[str] | None = None) -> None:
         """Take a freshly computed worklist; keep the cursor on the same item if it is still there."""
         if reasons:
             self.reasons = reasons
+        if own is not None:
+            self.own = own
         land = self._land_on or self._key_at(self.current_pos)
         self.rows = rows
         self.statuses = rows["_status"].to_numpy(dtype=object, copy=True)
+        self._counts = None
         self._warnings.clear()
         self.worklist.load(rows, self._view())
         at = self._position_of(land) if land else None
@@ -178,7 +185,9 @@ class ResolveScreen(Screen):
             return
         participant = str(row["participant"])
         if participant not in self._warnings:
-            self._warnings[participant] = res.independence_warning(self.study, participant, self.keyer)
+            # Only the resolver's own forms can warn; the exact words come from core.
+            self._warnings[participant] = (res.independence_warning(self.study, participant, self.keyer)
+                                           if participant in self.own else None)
         around = None if row["kind"] in res.FORM_KINDS else res.neighbours(self.study, row)
         detail.show(detail_text(self.study.codebook, row, around, self._warnings[participant]))
         self._set_shape(row)
@@ -186,40 +195,31 @@ class ResolveScreen(Screen):
     def header_text(self) -> str:
         if self.rows is None:
             return "loading the worklist…"
-        waiting = self.statuses != res.SETTLED
-        kinds = self.rows.loc[waiting, "kind"].value_counts()
-        counts = ", ".join(f"{int(n)} {k.replace('_', ' ')}" for k, n in kinds.items()) or "nothing"
-        line1 = (f"resolving as {self.keyer} · {int(waiting.sum())} open of {len(self.rows)}: {counts}")
+        if self._counts is None:  # counted again only when a decision or a load changed them
+            waiting = self.statuses != res.SETTLED
+            kinds = self.rows.loc[waiting, "kind"].value_counts()
+            counts = ", ".join(f"{int(n)} {k.replace('_', ' ')}" for k, n in kinds.items()) or "nothing"
+            self._counts = f"resolving as {self.keyer} · {int(waiting.sum())} open of {len(self.rows)}: {counts}"
         where = ""
         if self.worklist.cursor is not None:
             where = f"item {self.worklist.cursor + 1} of {len(self.worklist.view)}"
         shown = f" · filter: {self.shown_filter[0]} = {self.shown_filter[1]}" if self.shown_filter else ""
-        return f"{line1}\n{where}{shown}"
+        return f"{self._counts}\n{where}{shown}"
 
     def _set_shape(self, row) -> None:
-        # The footer only changes when the kind of item does: re-listing bindings costs a layout.
-        if row is None:
-            shape = "none"
-        elif row["kind"] in res.FORM_KINDS:
-            shape = str(row["kind"])
-        else:
-            shape = "shift" if row["cause"] == res.SHIFT_CAUSE else "cell"
+        # Re-listing bindings recomposes the footer (~0.1 s of CPU here), so the
+        # footer has two shapes only, cells and forms: in paper order it changes
+        # once, where the form-level problems end.
+        shape = None if row is None else "form" if row["kind"] in res.FORM_KINDS else "cell"
         if shape != self._shape:
             self._shape = shape
             self.refresh_bindings()
 
     def check_action(self, action: str, parameters) -> bool | None:
-        shape = self._shape
-        if action in CELL_ACTIONS:
-            return shape in ("cell", "shift")
-        if action == "shift":
-            return shape == "shift"
-        if action == "pair":
-            return shape in ("only_in_pass1", "only_in_pass2")
-        if action == "confirm":
-            return shape in ("only_in_pass1", "only_in_pass2")
-        if action == "drop":
-            return shape == "duplicate_id"
+        if action in CELL_ACTIONS or action == "shift":
+            return self._shape == "cell"
+        if action in FORM_ACTIONS:
+            return self._shape == "form"
         if action == "leave":
             return self.can_leave
         return True
@@ -323,6 +323,7 @@ class ResolveScreen(Screen):
                 self.rows[column] = self.rows[column].astype(object)
             self.rows.loc[index, column] = text
         self.statuses[list(positions)] = res.SETTLED
+        self._counts = None
         self.worklist.set_status(positions, res.SETTLED)
         self.action_next_open(1)
 
@@ -406,6 +407,9 @@ class ResolveScreen(Screen):
         row = self.row()
         if row is None:
             return
+        if row["cause"] != res.SHIFT_CAUSE:
+            self.say("This cell is not part of a field shift — settle it on its own.")
+            return
         participant = str(row["participant"])
 
         def picked(item: str | None) -> None:
@@ -444,6 +448,9 @@ class ResolveScreen(Screen):
         row = self.row()
         if row is None:
             return
+        if row["kind"] == "duplicate_id":
+            self.say("Both passes know this ID — drop the form keyed twice (d) instead.")
+            return
         partner = row.get("_partner")
         if partner is None or str(partner) in ("<NA>", "nan", ""):
             self.say("No likely partner was found for this form — key the other pass or confirm it (c).")
@@ -468,6 +475,9 @@ class ResolveScreen(Screen):
     def action_drop(self) -> None:
         row = self.row()
         if row is None:
+            return
+        if row["kind"] != "duplicate_id":
+            self.say("Only an ID keyed twice in one pass has a form to drop — pair (p) or confirm (c).")
             return
         participant = str(row["participant"])
         forms = self.study.forms()
@@ -518,3 +528,16 @@ class ResolveScreen(Screen):
         from .setaside_view import SetAsideView
 
         self.app.push_screen(SetAsideView(self.study, self.keyer))
+
+
+def keyed_by_resolver(study, keyer: str) -> set[str]:
+    """Participant IDs (canonical, as the worklist shows them) of forms ``keyer`` keyed."""
+    from core.values import canonical_series
+
+    forms = study.forms()
+    if forms.empty:
+        return set()
+    mine = forms[(forms["keyer"].astype("string").fillna("").str.strip() == keyer.strip())
+                 & ~forms["dropped"].fillna(False).astype(bool)]
+    canon, _ = canonical_series(study.codebook.id_variable, mine["participant"].astype(object))
+    return {str(p) for p in canon.dropna()}

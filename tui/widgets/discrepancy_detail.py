@@ -10,7 +10,7 @@ from __future__ import annotations
 import pandas as pd
 from textual.widgets import Static
 
-from core.values import allowed_text, parse
+from core.values import allowed_text
 
 CAUSE_WORDS = {
     "transposed": "two characters swapped",
@@ -75,23 +75,15 @@ def detail_text(codebook, row, around: pd.DataFrame | None = None,
             if var.applies_if:
                 rule += f"  ·  applies if {var.applies_if}"
             lines.append(rule)
-        values = []
-        for p in (1, 2):
-            text = _s(row.get(f"pass{p}"))
-            broken = ""
-            if var is not None and text and text != "(illegible)":
-                problem = parse(var, text).problem
-                if problem:
-                    broken = f"  ← breaks the rule ({problem.replace('_', ' ')})"
-            values.append(f"pass {p}: {_shown(text)}{broken}")
-        lines.append("   ".join(values))
-        cause = _s(row.get("cause"))
+        lines.append(f"pass 1: {_shown(_s(row.get('pass1')))}   pass 2: {_shown(_s(row.get('pass2')))}")
+        # The comparison's detail already says which pass breaks the rule, and how.
         what = kind.replace("_", " ")
-        if cause:
-            what += f"  ·  likely cause: {CAUSE_WORDS.get(cause, cause)}"
-        elif _s(row.get("detail")):
+        if _s(row.get("detail")):
             what += f"  ·  {_s(row.get('detail'))}"
         lines.append(what)
+        cause = _s(row.get("cause"))
+        if cause:
+            lines.append(f"likely cause: {CAUSE_WORDS.get(cause, cause)}")
     if _s(row.get("_decision_action")):
         word = {"stale": "REOPENED — a pass value changed after this decision:",
                 "settled": "decided:"}.get(status, "last decision:")

@@ -34,8 +34,18 @@ STATE_WORDS = {"open": "", "settled": "settled", "stale": "REOPENED"}
 
 
 def _texts(column: pd.Series) -> np.ndarray:
-    """A column as an object array of str (NA as "")."""
-    return column.astype("string").fillna("").to_numpy(dtype=object)
+    """A column as an object array, as it is: NA is turned into "" only when drawn.
+
+    Converting 50,000 values per column up front costs more than the whole
+    first paint; a window of lines converts about 40.
+    """
+    return column.to_numpy(dtype=object)
+
+
+def _cell(value) -> str:
+    if value is None or value is pd.NA or value != value:  # None, NA, NaN
+        return ""
+    return str(value)
 
 
 class WorklistView(ScrollView, can_focus=False):
@@ -67,6 +77,7 @@ class WorklistView(ScrollView, can_focus=False):
         """Show ``rows`` (a worklist) restricted to positions ``view``; cursor to the top."""
         self._cols = {name: _texts(rows[name]) if name in rows else
                       np.full(len(rows), "", dtype=object) for name, _ in SHOWN}
+        self._cols["_status"] = self._cols["_status"].copy()  # set_status writes into it
         self.set_view(view)
 
     def set_view(self, view: np.ndarray, at: int | None = None) -> None:
@@ -112,10 +123,16 @@ class WorklistView(ScrollView, can_focus=False):
         """View position of the next row (after the cursor) whose ``status`` is not settled."""
         if not len(self.view):
             return None
+        here = -1 if self.cursor is None else self.cursor
+        if forward:
+            # Usually the very next rows are open: look at a short stretch before the whole list.
+            near = self.view[here + 1: here + 257]
+            hit = np.flatnonzero(status[near] != "settled")
+            if len(hit):
+                return here + 1 + int(hit[0])
         waiting = np.flatnonzero(status[self.view] != "settled")
         if not len(waiting):
             return None
-        here = -1 if self.cursor is None else self.cursor
         if forward:
             later = waiting[waiting > here]
             return int(later[0]) if len(later) else int(waiting[0])
@@ -137,13 +154,13 @@ class WorklistView(ScrollView, can_focus=False):
         i = self.view[pos]
         cells = []
         for name, w in SHOWN:
-            value = self._cols[name][i]
+            value = _cell(self._cols[name][i])
             if name == "_status":
                 value = STATE_WORDS.get(value, value)
-            value = " ".join(str(value).split())  # a newline in free text stays on one line
+            value = " ".join(value.split())  # a newline in free text stays on one line
             cells.append((value[:w - 2] + "…" if len(value) > w - 1 else value).ljust(w))
         style = base
-        if self._cols["_status"][i] == "settled":
+        if _cell(self._cols["_status"][i]) == "settled":
             style = style + self.get_component_rich_style("worklist--settled")
         if pos == self.cursor:
             style = style + self.get_component_rich_style("worklist--current")
