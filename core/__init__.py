@@ -19,9 +19,11 @@ from .errors import (
     StoreError,
     UsageError,
 )
+from .export import ExportResult, export
 from .importer import ImportResult, import_file, read_keyed_file, read_pass_file
 from .journal import AuditResult
 from .passdata import PassData
+from .report import Report, build_report
 from .resolution import apply_decisions_file, verified_table, worklist
 from .screening import Screening, screen
 from .store import FormRecord, Study
@@ -37,12 +39,14 @@ __all__ = [
     "Condition",
     "DecisionError",
     "ExportError",
+    "ExportResult",
     "FormRecord",
     "ImportFileError",
     "ImportResult",
     "KeyproofError",
     "OpenWorkError",
     "PassData",
+    "Report",
     "Screening",
     "StoreError",
     "Study",
@@ -50,7 +54,9 @@ __all__ = [
     "Variable",
     "Verified",
     "apply_decisions_file",
+    "build_report",
     "diff_codebooks",
+    "export",
     "import_file",
     "load_codebook",
     "make_demo_study",
