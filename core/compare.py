@@ -39,6 +39,10 @@ factorised once per group of variables sharing the same rules, so the value
 rules run on distinct texts only (a Likert block of 100,000 cells has five);
 everything else is array arithmetic. Python-level work happens per variable
 group, per discrepancy and per unpaired form, never per cell of a pass.
+
+Length: a little over 600 lines, because the field checks, the form-level
+rows and the ordering share the private array layout (``_Side``); the causes
+and the partner search, which do not, live in their own modules.
 """
 
 from __future__ import annotations
