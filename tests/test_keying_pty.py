@@ -115,3 +115,18 @@ def test_sigkill_at_20_random_moments_loses_nothing_confirmed(tmp_path):
         reached.append(len(done))
     # Most kills landed after fields were committed, not all before the first one.
     assert sum(1 for n in reached if n > 2) >= 10, reached
+
+
+def test_keys_typed_before_the_screen_is_drawn_are_kept(tmp_path):
+    path = bench.make_form_study(tmp_path, 12)
+    app = bench.PtyApp(["key", str(path), "--pass", "1", "--keyer", "AB"])
+    try:
+        for key in bench.keys_of(["101", "5", "", "6"]):  # at once, while Python still starts
+            app.write(key)
+        assert app.wait_for(b"keyer AB", timeout=60) is not None
+        assert bench.wait_stored(path, 4, timeout=30) is not None
+    finally:
+        app.quit()
+    assert sorted(bench.stored_values(path)) == [
+        ("f001", "5", "keyed"), ("f002", "", "blank"), ("f003", "6", "keyed"),
+        ("pid", "101", "keyed")]
