@@ -8,7 +8,9 @@ or changes its text (Enter, keypad Enter, Tab, Shift+Tab, Up, Down, the
 illegible mark, Backspace, Delete, Left, Right, Home, End, Escape) in its own
 ``_on_key``: each key is finished, committed and the next field loaded before
 the next key is looked at. ``12⏎34⏎⏎5`` therefore lands exactly as if typed
-slowly, however fast it arrives.
+slowly, however fast it arrives. For the same reason the editor calls its
+owner (the :class:`Keyer` protocol) directly rather than posting messages: a
+message would wait in the screen's queue while later keys ran ahead of it.
 
 The illegible key is ``*`` (on the numeric keypad) pressed on an empty
 field: ``*`` is not part of any integer, number or ISO date, and a string
