@@ -24,6 +24,7 @@ DIALOG_CSS = """
 .dialog-title { text-style: bold; margin-bottom: 1; }
 .dialog-note { color: $warning; margin-bottom: 1; }
 .dialog-list { height: auto; }
+.dialog-hint { color: $text-muted; margin-top: 1; }
 """
 
 #: Keys that pick entries 1..10 of a list, in order.
@@ -51,6 +52,8 @@ class PickList(ModalScreen[str | None]):
         Binding("escape", "cancel", "cancel"),
     ]
 
+    HINT = "digit: pick  ·  ↑↓ Enter: the marked one  ·  Esc: cancel"
+
     def __init__(self, title: str, items: list[str], marked: int = 0, note: str = "", **kwargs):
         super().__init__(**kwargs)
         self.title_text = title
@@ -63,6 +66,7 @@ class PickList(ModalScreen[str | None]):
         if self.note:
             yield Static(self.note, classes="dialog-note", markup=False)
         yield Static(_list_text(self.items, self.marked), classes="dialog-list", markup=False)
+        yield Static(self.HINT, classes="dialog-hint", markup=False)
 
     def _repaint(self) -> None:
         self.query_one(".dialog-list", Static).update(_list_text(self.items, self.marked))
@@ -92,6 +96,7 @@ class ReasonDialog(PickList):
     """
 
     BINDINGS = [Binding("t", "free_text", "type a reason")]
+    HINT = "digit: pick  ·  ↑↓ Enter: the marked one  ·  t: type a reason  ·  Esc: cancel"
 
     def __init__(self, what: str, reasons: list[str], marked: int = 0, note: str = "", **kwargs):
         super().__init__(f"Reason for: {what}", reasons, marked, note, **kwargs)

@@ -50,28 +50,30 @@ class ResolveScreen(Screen):
     #resolve-message { height: 1; padding: 0 1; color: $warning; }
     """
 
+    # Digits for the cell decisions (the numeric keypad, paper in the other hand),
+    # letters for the rest; words kept short so the whole set fits one footer line.
     BINDINGS = [
         Binding("1", "take_pass(1)", "pass 1", id="resolve.pass-1"),
         Binding("2", "take_pass(2)", "pass 2", id="resolve.pass-2"),
-        Binding("5", "paper_value", "type paper", id="resolve.paper-value"),
+        Binding("5", "paper_value", "paper value", id="resolve.paper-value"),
         Binding("0", "blank", "blank", id="resolve.blank"),
-        Binding("7", "missing_code", "missing code", id="resolve.missing-code"),
-        Binding("9", "keep", "keep as on paper", id="resolve.keep"),
+        Binding("7", "missing_code", "missing", id="resolve.missing-code"),
+        Binding("9", "keep", "keep", id="resolve.keep"),
         Binding("8", "shift", "shift run", id="resolve.shift"),
         Binding("p", "pair", "pair", id="resolve.pair"),
         Binding("d", "drop", "drop twice-keyed", id="resolve.drop"),
         Binding("c", "confirm", "one pass only", id="resolve.confirm"),
         Binding("plus,n", "next_open(1)", "next", id="resolve.next"),
-        Binding("minus,b", "next_open(-1)", "back", id="resolve.back"),
+        Binding("minus,b", "next_open(-1)", "back", id="resolve.back", show=False),
         Binding("down", "move(1)", show=False),
         Binding("up", "move(-1)", show=False),
         Binding("pagedown", "move(10)", show=False),
         Binding("pageup", "move(-10)", show=False),
         Binding("f", "filter", "filter", id="resolve.filter"),
-        Binding("j", "jump", "jump to form", id="resolve.jump"),
+        Binding("j", "jump", "jump", id="resolve.jump"),
         Binding("a", "set_aside", "set aside", id="resolve.set-aside"),
-        Binding("v", "view_set_aside", "set aside list", id="resolve.set-aside-list"),
-        Binding("r", "reload", "reload", id="resolve.reload"),
+        Binding("v", "view_set_aside", "aside list", id="resolve.set-aside-list"),
+        Binding("r", "reload", "reload", id="resolve.reload", show=False),
         Binding("escape", "leave", "home", id="resolve.leave"),
     ]
 
@@ -96,7 +98,7 @@ class ResolveScreen(Screen):
         yield WorklistView(id="worklist")
         yield DiscrepancyDetail(id="resolve-detail")
         yield Static("", id="resolve-message", markup=False)
-        yield Footer()
+        yield Footer(compact=True)
 
     def on_mount(self) -> None:
         self.load_worklist()
