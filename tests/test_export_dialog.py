@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import asyncio
 import functools
+import importlib
 import threading
 
 import pandas as pd
@@ -17,7 +18,6 @@ import pytest
 from demo_resolved import FIXTURES, copy_study, resolved_demo
 from frictionless import validate
 
-import core.export
 from core.demo import make_demo_study
 from core.resolution import counts_by_kind, open_rows, worklist
 from core.store import Study
@@ -27,6 +27,8 @@ from tui.screens.home import HomeScreen
 from tui.screens.report_dialog import ReportDialog
 
 SIZE = (120, 40)
+# The module itself: ``core.export`` as an attribute is the function core re-exports.
+EXPORT_MODULE = importlib.import_module("core.export")
 
 
 def sync(fn):
@@ -98,7 +100,7 @@ async def test_export_to_csv_shows_progress_and_the_app_answers_meanwhile(
     study = copy_study(resolved, tmp_path / "study")
     target = tmp_path / "verified.csv"
     reached, release = threading.Event(), threading.Event()
-    real_export = core.export.export
+    real_export = EXPORT_MODULE.export
 
     def held_export(*args, **kwargs):
         # Hold the worker between building the table and writing the file, so the
@@ -107,7 +109,7 @@ async def test_export_to_csv_shows_progress_and_the_app_answers_meanwhile(
         assert release.wait(30)
         return real_export(*args, **kwargs)
 
-    monkeypatch.setattr(core.export, "export", held_export)
+    monkeypatch.setattr(EXPORT_MODULE, "export", held_export)
     app = make_app(study)
     async with app.run_test(size=SIZE) as pilot:
         dialog = await open_dialog(app, pilot, "e", ExportDialog)

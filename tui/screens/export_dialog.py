@@ -11,12 +11,14 @@ leave half a file: the dialog only asks the user to wait.
 
 from __future__ import annotations
 
+from dataclasses import dataclass
 from pathlib import Path
 
-from textual import work
+from textual import on, work
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Vertical
+from textual.message import Message
 from textual.screen import ModalScreen
 from textual.widgets import Checkbox, Input, ProgressBar, Static
 
@@ -59,6 +61,28 @@ class ExportDialog(ModalScreen[None]):
 
     DEFAULT_CSS = DIALOG_CSS.format(name="ExportDialog")
     BINDINGS = [Binding("escape", "close", "close")]
+
+    @dataclass
+    class Progress(Message):
+        """Posted from the export's thread: ``done`` of ``total`` in ``phase``.
+
+        A message rather than a call into the app: posting does not wait for
+        the screen, so a busy screen never slows the export down.
+        """
+
+        phase: str
+        done: int
+        total: int
+
+    @dataclass
+    class Finished(Message):
+        """Posted from the export's thread last (after every Progress, same queue).
+
+        ``result``: the ``ExportResult``, or None with ``problem`` saying why.
+        """
+
+        result: object
+        problem: str
 
     def __init__(self, study_path, **kwargs):
         super().__init__(**kwargs)
@@ -107,40 +131,45 @@ class ExportDialog(ModalScreen[None]):
         bar.update(total=None, progress=0)
         bar.display = True
         self.query_one("#export-phase", Static).update("starting…")
-        self.export(out, ident, self.query_one("#export-draft", Checkbox).value)
+        self.run_export(out, ident, self.query_one("#export-draft", Checkbox).value)
 
     @work(thread=True, exclusive=True, group="export")
-    def export(self, out: str, identifying: str | None, draft: bool) -> None:
-        from core import export as exporting
+    def run_export(self, out: str, identifying: str | None, draft: bool) -> None:
         from core.errors import ExportError
+        from core.export import export, target_of
         from core.resolution import verified_table
         from core.store import Study
 
-        call = self.app.call_from_thread
+        def progress(phase: str):
+            return lambda done, total: self.post_message(self.Progress(phase, done, total))
+
         try:
-            _, target = exporting.target_of(out, draft)
+            _, target = target_of(out, draft)
             for given in (target, Path(identifying) if identifying else None):
                 if given is not None and given.resolve() == self.study_path.resolve():
                     raise ExportError(f"{given}: this is the study file — choose another name.")
             with Study.open(self.study_path, readonly=True) as study:
-                verified = verified_table(
-                    study, draft=draft,
-                    progress=lambda d, t: call(self._progress, "reading variables", d, t))
-            result = exporting.export(
-                verified, out, identifying=identifying,
-                progress=lambda d, t: call(self._progress, "writing rows", d, t))
+                verified = verified_table(study, draft=draft,
+                                          progress=progress("reading variables"))
+            result = export(verified, out, identifying=identifying,
+                                      progress=progress("writing rows"))
         except OpenWorkError as exc:
-            call(self._finished, None, refusal_text(exc))
+            self.post_message(self.Finished(None, refusal_text(exc)))
         except KeyproofError as exc:
-            call(self._finished, None, str(exc))
+            self.post_message(self.Finished(None, str(exc)))
         else:
-            call(self._finished, result, "")
+            self.post_message(self.Finished(result, ""))
 
-    def _progress(self, phase: str, done: int, total: int) -> None:
-        self.query_one("#export-phase", Static).update(f"{phase}: {done:,} of {total:,}")
-        self.query_one("#export-progress", ProgressBar).update(total=max(total, 1), progress=done)
+    @on(Progress)
+    def _progress(self, event: Progress) -> None:
+        self.query_one("#export-phase", Static).update(
+            f"{event.phase}: {event.done:,} of {event.total:,}")
+        self.query_one("#export-progress", ProgressBar).update(
+            total=max(event.total, 1), progress=event.done)
 
-    def _finished(self, result, problem: str) -> None:
+    @on(Finished)
+    def _finished(self, event: Finished) -> None:
+        result, problem = event.result, event.problem
         self.running = False
         bar = self.query_one("#export-progress", ProgressBar)
         if result is None:
@@ -150,6 +179,7 @@ class ExportDialog(ModalScreen[None]):
             self._say(problem)
             return
         self.result = result
+        bar.update(total=max(result.rows, 1), progress=max(result.rows, 1))
         self.query_one("#export-phase", Static).update("done")
         draft = " (DRAFT)" if result.provenance and result.provenance.draft else ""
         lines = [f"Wrote {result.path}{draft}: {result.rows} participants, "
