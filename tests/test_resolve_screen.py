@@ -333,3 +333,59 @@ def test_detail_text_shows_rule_breaker_and_shift():
     lines = text.splitlines()
     assert any(line.startswith("› q2") and line.endswith("≠") for line in lines)
     assert any(line.startswith("  q1") and not line.endswith("≠") for line in lines)
+
+
+@sync
+async def test_form_keyed_twice_is_dropped_from_the_screen(tmp_path):
+    path = tmp_path / "twice.sqlite"
+    # Pass 1 keyed the paper of participant 2 twice; pass 2 once.
+    pass1 = pd.DataFrame({"pid": ["1", "2", "2"], "q1": ["4", "2", "2"], "q2": ["1", "1", "1"],
+                          "q3": ["2", "2", "2"]})
+    pass2 = pd.DataFrame({"pid": ["1", "2"], "q1": ["4", "2"], "q2": ["1", "1"], "q3": ["2", "2"]})
+    with Study.create(path, CB, "LM") as study:
+        study.import_pass(1, "AB", pass1)
+        study.import_pass(2, "JM", pass2)
+        second = study.find_forms(1, "2")[1]
+    app = make_app(path, mode="resolve", keyer="LM")
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        assert str(app.screen.row()["kind"]) == "duplicate_id"
+        await pilot.press("d")
+        assert isinstance(app.screen, ChoiceDialog) and len(app.screen.items) == 2
+        await pilot.press("2", "enter")  # the second form; the marked reason: keyed twice
+        await settle(app, pilot)
+        assert app.screen.rows is not None and len(app.screen.rows) == 0
+    with Study.open(path, readonly=True) as study:
+        forms = study.forms()
+        d = study.decisions()
+        assert int(study.forms().loc[forms["form_id"] == second, "dropped"].item()) == 1
+        assert (worklist(study)["_status"] != "settled").sum() == 0
+    assert d[["action", "reason"]].values.tolist() == [["drop", "same form keyed twice"]]
+
+
+@sync
+async def test_home_opens_the_resolution_screen_and_esc_goes_back(tmp_path):
+    from tui.screens.home import HomeScreen
+
+    path = small_study(tmp_path)
+    app = make_app(path)
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        await pilot.press("r")
+        assert isinstance(app.screen, ValueDialog)
+        await pilot.press("L", "M", "enter")
+        await settle(app, pilot)
+        assert isinstance(app.screen, ResolveScreen) and app.screen.keyer == "LM"
+        assert int((app.screen.statuses != "settled").sum()) == 2  # the two cells this file keyed apart
+        await pilot.press("escape")
+        assert isinstance(app.screen, HomeScreen)
+
+
+def test_resolve_command_refuses_bad_input(tmp_path, capsys):
+    from tui import cli
+
+    assert cli.main(["resolve", str(small_study(tmp_path)), "--keyer", " "]) == 2
+    assert "--keyer is empty" in capsys.readouterr().err
+    assert cli.main(["resolve", str(tmp_path / "none.sqlite"), "--keyer", "LM"]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith("keyproof resolve: ") and "none.sqlite" in err and "Traceback" not in err

@@ -484,8 +484,9 @@ class ResolveScreen(Screen):
         participant = str(row["participant"])
         forms = self.study.forms()
         forms = forms[~forms["dropped"].astype(bool)]
-        twice = [f for p in (1, 2) for f in self.study.find_forms(p, participant)
-                 if f in set(forms["form_id"])]
+        live = set(forms["form_id"])
+        per_pass = [[f for f in self.study.find_forms(p, participant) if f in live] for p in (1, 2)]
+        twice = [f for fs in per_pass if len(fs) > 1 for f in fs]  # only the pass that has it twice
         items = []
         for f in twice:
             rec = forms[forms["form_id"] == f].iloc[0]
