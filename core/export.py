@@ -11,6 +11,12 @@ resolution step) and writes it where ``out`` points:
   (``datapackage.json``, ``data.csv`` with its Table Schema ``schema.json``,
   ``set_aside.csv``, ``decisions.csv``).
 
+After the codebook's variables come the scale scores, computed here by
+:func:`core.screening.scale_scores` from the verified items, never keyed:
+one column per scale (named after the scale, or ``<scale>_score`` when a
+variable already has that name), its rule written in the Table Schema's
+``description`` and the XLSX codebook sheet. See :func:`score_columns`.
+
 Identifying variables never go into any of these: with ``identifying=PATH``
 they are written, with the participant ID alone, to that separate file.
 A draft export (``verified.draft``) carries ``DRAFT`` in its name and
@@ -34,6 +40,7 @@ from __future__ import annotations
 
 import functools
 import json
+import math
 import re
 from collections.abc import Callable
 from dataclasses import asdict, dataclass, field
@@ -94,6 +101,8 @@ class ExportResult:
     """Cells left empty because they are still open (0 unless a draft)."""
     left_out: tuple[str, ...] = ()
     """Identifying variables kept out of the analysis file."""
+    computed: tuple[str, ...] = ()
+    """Scale score columns computed after the variables (not counted in ``columns``)."""
     provenance: Provenance | None = field(default=None, compare=False)
 
 
@@ -146,6 +155,110 @@ def analysis_columns(codebook: Codebook) -> list[str]:
     return [v.name for v in codebook if v.is_id or not v.identifying]
 
 
+@dataclass(frozen=True)
+class ScoreColumn:
+    """One computed scale score column of the verified file and how it was computed."""
+
+    name: str
+    """The column's name in the file."""
+    scale: str
+    items: tuple[str, ...]
+    reversed: tuple[str, ...]
+    """Reverse-keyed items, with their scoring, e.g. ``belong3 (1 + 5 - x)``."""
+    method: str
+    """``sum`` or ``mean``."""
+    min_answered: float
+    prorated: int
+    too_few: int
+
+    @property
+    def rule(self) -> str:
+        """The rule in words, for the Table Schema description and the XLSX codebook sheet."""
+        k = len(self.items)
+        need = math.ceil(self.min_answered * k - 1e-9)
+        how = "sum" if self.method == "sum" else "mean"
+        parts = [f"Computed by keyproof, not keyed: the {how} of the {k} items of scale "
+                 f"{self.scale} ({', '.join(self.items)})"]
+        if self.reversed:
+            parts.append("reverse-keyed items scored as min + max - x: " + ", ".join(self.reversed))
+        parts.append("declared missing codes left out")
+        parts.append(f"missing when fewer than {self.min_answered:.0%} of the items ({need} of "
+                     f"{k}) are answered: {self.too_few} participant(s)")
+        if how == "sum":
+            parts.append(f"a sum with items unanswered is prorated (sum x {k} / answered): "
+                         f"{self.prorated} score(s) prorated")
+        else:
+            parts.append("a mean is taken over the answered items")
+        return "; ".join(parts) + "."
+
+    def as_dict(self) -> dict:
+        return {**asdict(self), "rule": self.rule}
+
+
+def score_names(codebook: Codebook) -> dict[str, str]:
+    """Scale -> its score column: the scale's name, or ``<scale>_score`` if a variable has it.
+
+    Names are compared case-insensitively, as spreadsheets and statistics
+    programs do.
+
+    >>> from core.codebook import Codebook, Variable
+    >>> cb = Codebook((Variable("pid", is_id=True), Variable("calm", "integer", scale="calm"),
+    ...                Variable("a1", "integer", scale="A")))
+    >>> score_names(cb)
+    {'calm': 'calm_score', 'A': 'A'}
+    """
+    taken = {v.name.casefold() for v in codebook}
+    names = {}
+    for scale in codebook.scales:
+        name, n = scale, 1
+        while name.casefold() in taken:
+            name = f"{scale}_score" + (str(n) if n > 1 else "")
+            n += 1
+        taken.add(name.casefold())
+        names[scale] = name
+    return names
+
+
+def score_columns(data: pd.DataFrame, codebook: Codebook) -> tuple[pd.DataFrame, tuple[ScoreColumn, ...]]:
+    """The scale scores of ``data`` as columns (same index), and how each was computed.
+
+    Scored by :func:`core.screening.scale_scores` (reverse keys, sum or mean,
+    the minimum answered share; declared missing codes left out); NaN where
+    too few items were answered.
+
+    >>> from core.codebook import Codebook, Variable
+    >>> cb = Codebook((Variable("pid", is_id=True),
+    ...                Variable("a1", "integer", min=1, max=5, scale="A"),
+    ...                Variable("a2", "integer", min=1, max=5, scale="A", reverse=True)))
+    >>> table, cols = score_columns(pd.DataFrame({"pid": ["1"], "a1": [4], "a2": [2]}), cb)
+    >>> table["A"].tolist(), cols[0].reversed
+    ([4.0], ('a2 (1 + 5 - x)',))
+    """
+    from .screening import scale_scores
+
+    names = score_names(codebook)
+    if not names:
+        return pd.DataFrame(index=data.index), ()
+    scored = scale_scores(data, codebook)
+    table = scored.scores[list(names)].rename(columns=names)
+    columns = tuple(
+        ScoreColumn(
+            names[scale], scale, tuple(v.name for v in items),
+            tuple(f"{v.name} ({_reverse_text(v)})" for v in items if v.reverse),
+            scored.method[scale], scored.min_answered[scale],
+            scored.prorated[scale], scored.too_few[scale],
+        )
+        for scale, items in codebook.scales.items()
+    )
+    return table, columns
+
+
+def _reverse_text(var: Variable) -> str:
+    if var.min is not None and var.max is not None:
+        return f"{_number_text(var.min)} + {_number_text(var.max)} - x"
+    return "lowest + highest code - x"
+
+
 def export(
     verified: Verified,
     out: str | Path,
@@ -177,7 +290,8 @@ def export(
     prov = Provenance(verified.study, verified.head, stamp, keyproof_version(), verified.draft)
     columns = analysis_columns(codebook)
     left_out = tuple(v.name for v in codebook if v.identifying and not v.is_id)
-    data = verified.data.reindex(columns=columns)
+    scores, computed = score_columns(verified.data, codebook)
+    data = pd.concat([verified.data.reindex(columns=columns), scores], axis=1)
     written: list[Path] = []
     try:
         if identifying is not None:
@@ -186,11 +300,11 @@ def export(
             open_path = path.with_name(_stem(path) + ".open.csv")
             written.append(_write_csv(open_path, _frame(verified.open_cells, OPEN_COLUMNS)))
         if kind == "csv":
-            written += _export_csv(verified, data, path, prov, progress)
+            written += _export_csv(verified, data, path, prov, progress, computed)
         elif kind == "xlsx":
-            written.append(_export_xlsx(verified, data, path, prov, progress))
+            written.append(_export_xlsx(verified, data, path, prov, progress, computed))
         else:
-            written.append(_export_package(verified, data, path, prov, progress))
+            written.append(_export_package(verified, data, path, prov, progress, computed))
     except ExportError:
         raise
     except OSError as exc:
@@ -207,6 +321,7 @@ def export(
         set_aside=len(verified.set_aside),
         open_cells=len(verified.open_cells) if verified.draft else 0,
         left_out=left_out,
+        computed=tuple(c.name for c in computed),
         provenance=prov,
     )
 
@@ -307,11 +422,13 @@ def _write_identifying(verified: Verified, path: Path) -> Path:
     return _write_csv(path, _csv_ready(table))
 
 
-def _about(prov: Provenance, verified: Verified, data: pd.DataFrame) -> dict:
+def _about(prov: Provenance, verified: Verified, data: pd.DataFrame,
+           computed: tuple[ScoreColumn, ...] = ()) -> dict:
     return {
         **prov.as_dict(),
         "participants": len(data),
-        "variables": len(data.columns),
+        "variables": len(data.columns) - len(computed),
+        "computed_columns": [c.name for c in computed],
         "set_aside": len(verified.set_aside),
         "open_cells": len(verified.open_cells) if verified.draft else 0,
         "identifying_left_out": sum(
@@ -321,11 +438,12 @@ def _about(prov: Provenance, verified: Verified, data: pd.DataFrame) -> dict:
     }
 
 
-def _export_csv(verified, data, path, prov, progress) -> list[Path]:
+def _export_csv(verified, data, path, prov, progress, computed) -> list[Path]:
     stem = _stem(path)
     about = path.with_name(stem + ".about.json")
     set_aside = path.with_name(stem + ".set_aside.csv")
-    info = _about(prov, verified, data)
+    info = _about(prov, verified, data, computed)
+    info["computed"] = {c.name: c.rule for c in computed}
     info["files"] = {"data": path.name, "set_aside": set_aside.name}
     if verified.draft:
         info["files"]["open_cells"] = stem + ".open.csv"
@@ -399,7 +517,8 @@ def _as_text_if_formula(ws, value):
     return value
 
 
-def _codebook_table(codebook: Codebook, names: list[str]) -> pd.DataFrame:
+def _codebook_table(codebook: Codebook, names: list[str],
+                    computed: tuple[ScoreColumn, ...] = ()) -> pd.DataFrame:
     rows = []
     for v in codebook:
         if v.name not in names:
@@ -419,10 +538,13 @@ def _codebook_table(codebook: Codebook, names: list[str]) -> pd.DataFrame:
             "reverse": "yes" if v.reverse else "",
             "applies_if": v.applies_if,
             "format": v.format,
+            "origin": "keyed",
         })
+    rows += [{"name": c.name, "label": f"{c.scale} score ({c.method})", "type": "number",
+              "scale": c.scale, "origin": "computed", "rule": c.rule} for c in computed]
     return pd.DataFrame(rows, columns=["name", "label", "type", "id", "min", "max", "codes",
                                        "missing", "required", "section", "scale", "reverse",
-                                       "applies_if", "format"])
+                                       "applies_if", "format", "origin", "rule"])
 
 
 def _number_text(x: float | None) -> str:
@@ -435,12 +557,12 @@ def _codes_text(codes) -> str:
     return "; ".join(f"{c.value}={c.label}" if c.label else c.value for c in codes)
 
 
-def _export_xlsx(verified, data, path, prov, progress) -> Path:
-    about = _about(prov, verified, data)
+def _export_xlsx(verified, data, path, prov, progress, computed) -> Path:
+    about = _about(prov, verified, data, computed)
     about_table = pd.DataFrame({"item": list(about), "value": [str(v) for v in about.values()]})
     sheets = [
         ("data", data),
-        ("codebook", _codebook_table(verified.codebook, list(data.columns))),
+        ("codebook", _codebook_table(verified.codebook, list(data.columns), computed)),
         ("decisions", _safe_decisions(verified)),
         ("set aside", _frame(verified.set_aside, SET_ASIDE_COLUMNS)),
         ("kept values", _safe_kept(verified)),
@@ -452,7 +574,8 @@ def _export_xlsx(verified, data, path, prov, progress) -> Path:
 # --- Data Package -----------------------------------------------------------
 
 
-def table_schema(codebook: Codebook, names: list[str], kept: pd.DataFrame | None = None) -> dict:
+def table_schema(codebook: Codebook, names: list[str], kept: pd.DataFrame | None = None,
+                 computed: tuple[ScoreColumn, ...] = ()) -> dict:
     """The Table Schema of the analysis file: ``names`` of ``codebook`` in order.
 
     Starts from the codebook's own Table Schema (``core.codebook_io``) and
@@ -467,7 +590,9 @@ def table_schema(codebook: Codebook, names: list[str], kept: pd.DataFrame | None
     - a value kept outside the rule because the paper says so (``kept``:
       participant, variable, value) widens that field's minimum, maximum or
       enum just enough, and is listed under ``keyproof:kept``;
-    - dates are written ISO 8601, so their format is ``default``.
+    - dates are written ISO 8601, so their format is ``default``;
+    - ``computed`` scale scores follow as ``number`` fields whose
+      ``description`` gives the rule (also under ``keyproof:computed``).
 
     >>> from core.codebook import Code, Codebook, Variable
     >>> cb = Codebook((Variable("pid", is_id=True), Variable("q", "number",
@@ -498,6 +623,11 @@ def table_schema(codebook: Codebook, names: list[str], kept: pd.DataFrame | None
             ]
         if not constraints:
             f.pop("constraints")
+    schema["fields"] += [
+        {"name": c.name, "title": f"{c.scale} score ({c.method})", "type": "number",
+         "description": c.rule, "keyproof:computed": c.as_dict()}
+        for c in computed
+    ]
     id_name = codebook.id_variable.name
     if id_name in names:
         schema["primaryKey"] = [id_name]
@@ -575,9 +705,9 @@ def _package_name(path: Path) -> str:
     return name or "verified"
 
 
-def _export_package(verified, data, path, prov, progress) -> Path:
-    names = list(data.columns)
-    schema = table_schema(verified.codebook, names, _safe_kept(verified))
+def _export_package(verified, data, path, prov, progress, computed) -> Path:
+    names = list(data.columns[: len(data.columns) - len(computed)])
+    schema = table_schema(verified.codebook, names, _safe_kept(verified), computed)
     set_aside = _frame(verified.set_aside, SET_ASIDE_COLUMNS)
     decisions = _safe_decisions(verified)
     descriptor = {
@@ -585,7 +715,7 @@ def _export_package(verified, data, path, prov, progress) -> Path:
         "title": f"Verified data of {verified.study or 'a keyproof study'}"
         + (" (draft)" if verified.draft else ""),
         "created": prov.exported_at,
-        "keyproof:provenance": _about(prov, verified, data),
+        "keyproof:provenance": _about(prov, verified, data, computed),
         "resources": [
             _resource("data", "data.csv", "schema.json"),
             _resource("set-aside", "set_aside.csv", _text_schema(set_aside)),
