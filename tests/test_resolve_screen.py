@@ -295,8 +295,11 @@ async def test_missing_code_typed_value_filter_and_jump(tmp_path):
         await pilot.press("enter")
         assert str(screen.row()["participant"]) == "3"
         await pilot.press("f")
-        assert isinstance(app.screen, ChoiceDialog) and app.screen.items[0] == "everything"
-        await pilot.press("escape")
+        assert isinstance(app.screen, ChoiceDialog)
+        assert app.screen.items == ["everything", "one field…"]  # nothing open: no kind to offer
+        await pilot.press("2", "q", "2", "enter")
+        shown = screen.rows.iloc[screen.worklist.view]
+        assert shown["variable"].tolist() == ["q2"] and "filter: variable = q2" in screen.header_text()
     with Study.open(path, readonly=True) as study:
         d = study.decisions()
     assert d[["participant", "variable", "value"]].values.tolist() == [["2", "q1", "9"], ["3", "q2", "5"]]
