@@ -10,6 +10,7 @@ from __future__ import annotations
 import asyncio
 import functools
 import re
+from pathlib import Path
 
 import pandas as pd
 import pytest
@@ -369,3 +370,45 @@ async def test_review_names_flagged_fields_and_tab_goes_to_the_first(tmp_path):
         assert (model.mode, model.names[model.cursor]) == (FIELD_MODE, "age")
         await pilot.press("escape", *field_keys(["12"]), "1")  # reopen the same form
         assert (model.mode, model.names[model.cursor]) == (FIELD_MODE, "age")
+
+
+@pytest.mark.parametrize("row", [0, 1, 7])
+@sync
+async def test_a_demo_form_keyed_from_its_paper_with_auto_advance(tmp_path, row):
+    # The demo's codebook and its paper truth (fixtures/demo), keyed as a keyer
+    # would with auto-advance on: no Enter after a value that fills its field's
+    # width, a second Enter where the value breaks the codebook (core.values
+    # decides which), nothing typed for a field whose applies_if is false.
+    from core.codebook_io import load_codebook
+    from core.conditions import parse_condition
+    from core.values import parse
+
+    root = Path(__file__).resolve().parent.parent / "fixtures" / "demo"
+    cb = load_codebook(root / "codebook.csv")
+    paper = pd.read_csv(root / "paper.csv", dtype=str, keep_default_na=False).iloc[row]
+    path = make_study(tmp_path, cb, auto_advance=True)
+    keys, typed, expected = [], {}, {}
+    for var in cb:
+        value = paper[var.name]
+        if var.applies_if and not parse_condition(var.applies_if).evaluate_one(typed):
+            expected[var.name] = ("", "blank")  # skipped: blank, as the codebook says
+            continue
+        expected[var.name] = (value, "keyed" if value else "blank")
+        if not value:
+            keys += ["enter"] * (2 if var.required else 1)
+            continue
+        parsed = parse(var, value)
+        if parsed.value is not None:
+            typed[var.name] = parsed.value
+        keys += list(value)
+        width = var.implied_width
+        keys += [] if width and len(value) >= width else ["enter"]
+        keys += ["enter"] if parsed.problem else []
+    app = make_app(path, mode="key", pass_no=1, keyer="AB")
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press(*keys)
+        assert app.screen.model.mode == REVIEW_MODE
+        await pilot.press("enter")
+    (form,) = stored(path)
+    assert {n: (form.texts[n], form.states[n]) for n in cb.names} == expected
+    assert form.finished_at is not None
