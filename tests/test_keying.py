@@ -372,7 +372,7 @@ async def test_review_names_flagged_fields_and_tab_goes_to_the_first(tmp_path):
         assert (model.mode, model.names[model.cursor]) == (FIELD_MODE, "age")
 
 
-@pytest.mark.parametrize("row", [0, 1, 7])
+@pytest.mark.parametrize("row", [5, 9])  # children keyed; age blank on paper
 @sync
 async def test_a_demo_form_keyed_from_its_paper_with_auto_advance(tmp_path, row):
     # The demo's codebook and its paper truth (fixtures/demo), keyed as a keyer
