@@ -195,7 +195,77 @@ class Report:
     """Values kept outside the codebook's rule because the paper says so."""
     screening: pd.DataFrame | None = None
     """Scale reliability from core.screening, when available (see screening_section)."""
+    set_aside_rules: pd.DataFrame = field(
+        default_factory=lambda: pd.DataFrame(columns=list(RULE_COLUMNS)))
+    """rule, text, participants: how many each screening rule set aside (see set_aside_rules)."""
     notes: list[str] = field(default_factory=list)
+
+
+RULE_COLUMNS = ("rule", "text", "participants")
+ONE_BY_ONE = "(none: set aside one by one)"
+
+
+def set_aside_rules(set_asides: pd.DataFrame) -> pd.DataFrame:
+    """Participants set aside per rule: ``rule, text, participants``, rules first by name.
+
+    ``set_asides`` is the store's table (participant, reason, rule, ...). A
+    rule's text is the reason it recorded with each participant it caught;
+    set-asides without a rule are counted together under their reasons.
+
+    >>> t = pd.DataFrame({"participant": ["1", "2", "3"], "rule": ["z>3:age", "z>3:age", ""],
+    ...                   "reason": ["|z| above 3 on age"] * 2 + ["consent withdrawn"]})
+    >>> set_aside_rules(t)["participants"].tolist()
+    [2, 1]
+    """
+    if set_asides is None or set_asides.empty:
+        return pd.DataFrame(columns=list(RULE_COLUMNS))
+    table = pd.DataFrame({
+        "rule": set_asides["rule"].astype("string").fillna("").str.strip(),
+        "text": set_asides["reason"].astype("string").fillna("").str.strip(),
+        "participant": set_asides["participant"].astype(str),
+    })
+    by_rule = table["rule"] != ""
+    table["rule"] = table["rule"].where(by_rule, ONE_BY_ONE)
+    counts = (table.assign(one_by_one=~by_rule)
+              .groupby(["one_by_one", "rule", "text"], sort=True)["participant"].nunique()
+              .rename("participants").reset_index())
+    return counts[list(RULE_COLUMNS)].reset_index(drop=True)
+
+
+def scale_reliability(data: pd.DataFrame, codebook: Codebook) -> pd.DataFrame:
+    """One row per scale of ``codebook`` screened on the verified ``data`` (from core.screening).
+
+    Columns: scale, items, alpha (Cronbach's, listwise), n (rows alpha used),
+    split-half (Spearman-Brown), score (sum or mean), prorated, too few
+    answered, negative items (items whose corrected item-total correlation
+    is below zero; a missed reverse key is the usual cause).
+
+    >>> from core.codebook import Codebook, Variable
+    >>> cb = Codebook((Variable("id", is_id=True),
+    ...                *(Variable(n, "integer", scale="S") for n in "abcd")))
+    >>> df = pd.DataFrame({"id": list("12345"), "a": [1, 2, 3, 4, 5], "b": [1, 3, 2, 4, 5],
+    ...                    "c": [5, 4, 3, 2, 1], "d": [2, 1, 3, 5, 4]})
+    >>> scale_reliability(df, cb)["negative items"].tolist()
+    ['c']
+    """
+    from .screening import cronbach_alpha, item_analysis, scale_scores, split_half
+
+    scored = scale_scores(data, codebook)
+    rows = []
+    for name, items in scored.items.items():
+        alpha, table = cronbach_alpha(items), item_analysis(items)
+        rows.append({
+            "scale": name, "items": alpha.k, "alpha": alpha.alpha, "n": alpha.n_used,
+            "split-half (Spearman-Brown)": split_half(items).spearman_brown,
+            "score": scored.method[name], "prorated": scored.prorated[name],
+            "too few answered": scored.too_few[name],
+            "negative items": ", ".join(table.loc[table["negative"].astype(bool), "item"]),
+        })
+    return pd.DataFrame(rows, columns=SCALE_COLUMNS)
+
+
+SCALE_COLUMNS = ["scale", "items", "alpha", "n", "split-half (Spearman-Brown)", "score",
+                 "prorated", "too few answered", "negative items"]
 
 
 def _count(table: pd.DataFrame, column: str, name: str = "discrepancies") -> pd.DataFrame:
@@ -317,6 +387,7 @@ def assemble_report(
         set_aside=aside,
         set_aside_by_reason=aside_reasons,
         kept=kept,
+        set_aside_rules=set_aside_rules(aside),
     )
 
 
@@ -349,32 +420,25 @@ def build_report(study, now: datetime | None = None) -> Report:
 
 
 def screening_section(study, rows: pd.DataFrame | None = None) -> tuple[pd.DataFrame | None, str]:
-    """Hook for the screening section: scale reliability of the verified table.
+    """The screening section: scale reliability of the verified table (set-asides left out).
 
-    Returns ``(table, note)``: one row per scale (scale, items, alpha, n,
-    Spearman-Brown split-half) from ``core.screening``, or None and a note
-    saying why it is missing. Built on the draft verified table, so it works
-    before every discrepancy is settled (the note then says so). ``rows``
-    is the worklist when already computed.
+    Returns ``(table, note)``: :func:`scale_reliability` of the verified
+    table, or None and a note saying why it is missing. Built on the draft
+    verified table, so it works before every discrepancy is settled (the
+    note then says so). ``rows`` is the worklist when already computed, so
+    the comparison runs once.
     """
     try:
         from .resolution import verified_table
-        from .screening import screen
     except ImportError:
         return None, "screening is not available in this version."
     from .errors import KeyproofError
 
     try:
         verified = verified_table(study, draft=True, rows=rows)
-        tables = screen(verified.data, study.codebook).tables()
+        table = scale_reliability(verified.data, study.codebook)
     except KeyproofError as exc:
         return None, f"screening left out: {exc}"
-    summary = tables["summary"]
-    scales = summary[summary["kind"] == "scale"]
-    table = pd.DataFrame({
-        "scale": scales["name"], "items": scales["k"], "alpha": scales["alpha"],
-        "n": scales["alpha_n"], "split-half (Spearman-Brown)": scales["spearman_brown"],
-    }).reset_index(drop=True)
     note = ("screening uses a draft: cells still open are left out."
             if verified.draft else "")
     return table, note
@@ -461,17 +525,41 @@ def _sections(report: Report) -> list[tuple[str, list]]:
             report.kept,
         ]),
     ]
-    if report.screening is not None:
-        table = report.screening.copy()
-        for col in table.columns[2:]:
-            table[col] = [_num(v, 3) if col != "n" else _num(v, 0) for v in table[col]]
-        sections.append(("Screening: scale reliability", [table]))
+    sections.append(("Screening", _screening_parts(report)))
     notes = [f"Note: {n}" for n in report.notes]
     sections.append(("Provenance", [
         f"Study: {report.study}. Journal head: {report.journal_head}. Written "
         f"{report.generated_at} (UTC) by keyproof {report.keyproof_version}.", *notes,
     ]))
     return sections
+
+
+def _screening_parts(report: Report) -> list:
+    """The numbers a methods section reports: reliability, proration, set-aside rules."""
+    parts: list = []
+    if report.screening is not None:
+        table = report.screening.copy()
+        for col in ("alpha", "split-half (Spearman-Brown)"):
+            table[col] = [_num(v, 3) for v in table[col]]
+        for col in ("items", "n", "prorated", "too few answered"):
+            if col in table:
+                table[col] = [_num(v, 0) for v in table[col]]
+        parts += [
+            "Scale scores are computed by keyproof from the verified items (reverse-keyed "
+            "items as min + max - x, declared missing codes left out), set-aside participants "
+            "left out. Cronbach's alpha is listwise: n is the participants with every item "
+            "answered. A negative item correlates below zero with the rest of its scale "
+            "(corrected item-total correlation); a missed reverse key is the usual cause.",
+            ("Scale reliability", table),
+        ]
+    rules = report.set_aside_rules
+    by_rule = rules.loc[rules["rule"] != ONE_BY_ONE, "participants"].sum() if len(rules) else 0
+    parts += [
+        f"{len(report.set_aside):,} participant(s) set aside in total, {int(by_rule):,} of "
+        "them by a screening rule applied to everyone.",
+        ("Set-aside rules", rules),
+    ]
+    return parts
 
 
 def _md(text) -> str:
