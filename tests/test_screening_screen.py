@@ -209,3 +209,33 @@ async def test_a_rule_with_a_typo_is_explained_and_nobody_is_set_aside(study_pat
         assert isinstance(app.screen, ScreeningScreen)
     with Study.open(study_path, readonly=True) as study:
         assert study.set_asides().empty
+
+
+@sync
+async def test_an_open_study_is_screened_as_a_draft_and_rules_wait_for_its_open_cells(tmp_path):
+    from core.demo import make_demo_study
+    from core.resolution import open_rows, worklist
+
+    study_path = make_demo_study(tmp_path / "open")
+    with Study.open(study_path, readonly=True) as study:
+        still_open = open_rows(worklist(study))
+    # Cells on age, plus form-level problems (they leave a participant with only an ID).
+    touching = int(still_open["variable"].isin(["age", ""]).sum())
+    assert touching, "the demo as keyed has open work touching age"
+    app = make_app(study_path)
+    async with app.run_test(size=SIZE) as pilot:
+        await open_screening(app, pilot)
+        assert "Draft:" in page(app) and "open cell(s) left out" in page(app)
+        await show(app, pilot, "var:age")
+        await pilot.press("a")
+        await pilot.pause()
+        assert app.screen.query_one("#rule-text").value == "z:age:3.29"  # offered from the page
+        await pilot.press("enter")
+        await pilot.pause()
+        problem = str(app.screen.query_one("#rule-problem").content)
+        assert problem.startswith(f"{touching} open cell(s) touch this rule's variables")
+        assert app.screen.query_one("#rule-keyer").disabled
+        await pilot.press("escape")
+        await settle(app, pilot)
+    with Study.open(study_path, readonly=True) as study:
+        assert study.set_asides().empty

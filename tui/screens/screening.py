@@ -5,9 +5,9 @@ The numbers are ``core.screening``'s. Gathering them means building the
 verified table (a draft: open cells are left out and said so), the same
 table with set-aside participants kept in, and both passes for kappa, which
 can take a moment on a big study, so it runs in a worker thread on its own
-read-only connection. Setting participants aside writes to the study, so it
-runs on the app's own connection (SQLite connections stay on their thread);
-a handful of rows is well under a frame.
+read-only connection. Setting participants aside by rule runs in a worker
+too, on a writing connection of its own: each set-aside is its own synced,
+journaled transaction, and a rule may catch many participants.
 """
 
 from __future__ import annotations
@@ -181,18 +181,33 @@ class ScreeningScreen(Screen):
         """Set aside everyone the confirmed rule caught, under the rule's name."""
         if not chosen:
             return
-        from core.resolution import set_aside
-
         rule, who, reason, keyer = chosen
-        done = 0
+        self.query_one("#screening-state", Static).update(
+            f"setting {len(who)} participant(s) aside under rule {rule.name}…")
+        self.set_aside_all(rule.name, who, reason, keyer)
+
+    @work(thread=True, exclusive=True, group="screening-aside")
+    def set_aside_all(self, rule_name: str, who: list[str], reason: str, keyer: str) -> None:
+        # Its own connection: each set-aside is a journaled, synced transaction,
+        # and a rule can catch many participants, so this stays off the screen's thread.
+        from core.resolution import set_aside
+        from core.store import Study
+
+        done, problem = 0, ""
         try:
-            for participant in who:
-                set_aside(self.study, participant, reason, keyer, rule=rule.name)
-                done += 1
+            with Study.open(self.study.path) as study:
+                for participant in who:
+                    set_aside(study, participant, reason, keyer, rule=rule_name)
+                    done += 1
         except KeyproofError as exc:
-            self.notify(f"Stopped after {done} of {len(who)}: {exc}", severity="error",
+            problem = str(exc)
+        self.app.call_from_thread(self._set_aside_done, rule_name, done, len(who), problem)
+
+    def _set_aside_done(self, rule_name: str, done: int, total: int, problem: str) -> None:
+        if problem:
+            self.notify(f"Stopped after {done} of {total}: {problem}", severity="error",
                         title="set aside")
         else:
-            self.notify(f"{done} participant(s) set aside under rule {rule.name}.",
+            self.notify(f"{done} participant(s) set aside under rule {rule_name}.",
                         title="set aside")
         self.action_recompute()
