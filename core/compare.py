@@ -375,7 +375,7 @@ def _sides(codebook: Codebook, p1: PassData, p2: PassData, forms1, forms2, progr
     passes = ((p1, p1.text.index.get_indexer(forms1)), (p2, p2.text.index.get_indexer(forms2)))
     # Column-major, since they are filled one variable (column) at a time.
     sides = [_Side(*(np.empty((n, m), dtype, order="F")
-                     for dtype in (np.int8, np.int32, np.int64, bool, np.int8, bool)))
+                     for dtype in (np.int8, np.int32, np.int32, bool, np.int8, bool)))
              for _ in passes]
     state_code = {KEYED: _K, BLANK: _B, ILLEGIBLE: _I}
     (_, pos1), (_, pos2) = passes
@@ -405,7 +405,7 @@ def _sides(codebook: Codebook, p1: PassData, p2: PassData, forms1, forms2, progr
             missing = (canon.isin(set(codes_missing)) & valid).to_numpy(dtype=bool)
         canon_arr = canon.to_numpy(dtype=object)
         gid = np.array([global_ids.setdefault(c, len(global_ids)) for c in canon_arr] + [-1],
-                       dtype=np.int64)
+                       dtype=np.int32)
         valid_ext = np.append(valid.to_numpy(dtype=bool), True)
         problem_ext = np.append(problem, 0).astype(np.int8)
         missing_ext = np.append(missing, False)
@@ -533,7 +533,7 @@ def _shift_cells(a: _Side, b: _Side, differ: np.ndarray) -> np.ndarray:
     if len(rows) == 0:
         return out
     # Keys comparable across variables: canonical value and state together.
-    keys = [(s.gid[rows] + 1) * 4 + s.state[rows] for s in (a, b)]
+    keys = [(s.gid[rows].astype(np.int64) + 1) * 4 + s.state[rows] for s in (a, b)]
     absent = [(s.state[rows] == _B) | (s.state[rows] == _N) for s in (a, b)]
     out[rows] = _causes.field_shift_cells(keys[0], keys[1], differ[rows], absent[0], absent[1])
     return out

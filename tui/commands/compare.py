@@ -113,6 +113,7 @@ def _read_pass(path: str, codebook, pass_no: int, encoding: str | None):
     cell, seconds for a large file; this does the same with one string
     operation per column. Switch back once ``from_texts`` is vectorised.
     """
+    import numpy as np
     import pandas as pd
 
     from core.importer import read_keyed_file
@@ -122,9 +123,17 @@ def _read_pass(path: str, codebook, pass_no: int, encoding: str | None):
     texts, notes = read_keyed_file(path, codebook, encoding)
     for note in notes:
         _say(note)
-    text = texts.astype(object)
-    state = pd.DataFrame({c: text[c].str.strip().ne("").map({True: KEYED, False: BLANK})
-                          for c in text.columns}, index=text.index).astype(object)
+    cells = texts.to_numpy(dtype=object)
+    keyed = np.empty(cells.shape, dtype=bool)
+    for j in range(cells.shape[1]):
+        # A column has few distinct texts: test those for blankness, not every cell.
+        codes, uniques = pd.factorize(cells[:, j])
+        filled = np.array([str(u).strip() != "" for u in uniques] + [False], dtype=bool)
+        keyed[:, j] = filled[codes]
+    text = pd.DataFrame(cells, index=texts.index, columns=texts.columns, dtype=object)
+    # Indexing an object array shares the two state strings instead of making one per cell.
+    states = np.array([BLANK, KEYED], dtype=object)[keyed.astype(np.int8)]
+    state = pd.DataFrame(states, index=texts.index, columns=texts.columns, dtype=object)
     keyer = pd.Series("", index=text.index, dtype="string")
     label = (f"{Path(path).name} row " + text.index.astype(str)).astype("string")
     return PassData(pass_no, text, state, keyer, pd.Series(label, index=text.index))
