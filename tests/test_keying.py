@@ -412,3 +412,16 @@ async def test_a_demo_form_keyed_from_its_paper_with_auto_advance(tmp_path, row)
     (form,) = stored(path)
     assert {n: (form.texts[n], form.states[n]) for n in cb.names} == expected
     assert form.finished_at is not None
+
+
+@sync
+async def test_editing_a_warned_value_asks_again(tmp_path):
+    path = make_study(tmp_path)
+    app = make_app(path, mode="key", pass_no=1, keyer="AB")
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press(*field_keys(["4", "AK"]), *keys_for("150"), "enter")
+        await pilot.press("backspace", "0", "enter")  # 150 -> 150 again: a new warning
+        model = app.screen.model
+        assert model.names[model.cursor] == "age" and model.states["age"] is None
+        await pilot.press("enter")
+        assert model.names[model.cursor] == "plot_m2"

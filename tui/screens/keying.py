@@ -84,6 +84,7 @@ class KeyingScreen(Screen):
 
     def editor_changed(self, text: str) -> None:
         m = self.model
+        m.text_changed(text)
         # The participant ID is a field like the others: it auto-advances too.
         if m.mode in (FIELD_MODE, ID_MODE) and text and m.reaches_width(text):
             self.editor_confirm(text)

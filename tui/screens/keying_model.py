@@ -277,6 +277,11 @@ class KeyingModel:
         parsed = parse(self.variables[index], text)
         return parsed.message if parsed.problem else ""
 
+    def text_changed(self, text: str) -> None:
+        """The keyer edited the text: a warning given for another text no longer counts."""
+        if self._warned is not None and self._warned[1] != text:
+            self._warned = None
+
     def mark_illegible(self) -> None:
         """The illegible key on the current field."""
         self._write(self.cursor, "", ILLEGIBLE)
