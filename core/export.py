@@ -26,9 +26,11 @@ Every file is written through :mod:`core.atomic`: a target is either the old
 complete file or the new complete one. The analysis file is written last, so
 a new analysis file always comes with its new companions.
 
-A little over the house's ~600 lines on purpose: the three formats share
-their companions (provenance, set-aside list, identifying file) and the
-schema adjustments; move the Data Package writer out if a fourth format comes.
+Over the house's ~600 lines: the three formats share their companions
+(provenance, set-aside list, identifying file, computed score columns) and
+the schema adjustments. The score columns (:class:`ScoreColumn`,
+:func:`score_columns`) are the first part to move to a module of their own;
+the Data Package writer next if a fourth format comes.
 
 Trade-off: values are written as their typed form (``7``, ``3.5``,
 ``2024-05-01``) rather than the keyed text, so a declared missing code of a
@@ -170,6 +172,8 @@ class ScoreColumn:
     min_answered: float
     prorated: int
     too_few: int
+    partial: int = 0
+    """Scores formed from some but not all items (for a sum, the prorated ones)."""
 
     @property
     def rule(self) -> str:
@@ -188,7 +192,8 @@ class ScoreColumn:
             parts.append(f"a sum with items unanswered is prorated (sum x {k} / answered): "
                          f"{self.prorated} score(s) prorated")
         else:
-            parts.append("a mean is taken over the answered items")
+            parts.append(f"a mean is taken over the answered items: {self.partial} score(s) "
+                         "from fewer than all items")
         return "; ".join(parts) + "."
 
     def as_dict(self) -> dict:
@@ -247,10 +252,21 @@ def score_columns(data: pd.DataFrame, codebook: Codebook) -> tuple[pd.DataFrame,
             tuple(f"{v.name} ({_reverse_text(v)})" for v in items if v.reverse),
             scored.method[scale], scored.min_answered[scale],
             scored.prorated[scale], scored.too_few[scale],
+            partial_scores(scored.items[scale], scored.scores[scale]),
         )
         for scale, items in codebook.scales.items()
     )
     return table, columns
+
+
+def partial_scores(items: pd.DataFrame, score: pd.Series) -> int:
+    """How many scores stand although some of their items were not answered.
+
+    >>> partial_scores(pd.DataFrame({"a": [1, None, None], "b": [2, 3, None]}),
+    ...                pd.Series([1.5, 3.0, None]))
+    1
+    """
+    return int((items.isna().any(axis=1) & score.notna()).sum())
 
 
 def _reverse_text(var: Variable) -> str:

@@ -18,9 +18,10 @@ The pure steps (:func:`attribute_errors`, :func:`error_rates`,
 :func:`wilson_interval`, :func:`assemble_report`) take DataFrames, so they are
 tested without a study.
 
-A little over the house's ~600 lines on purpose: the numbers and the words
-that present them (Markdown, HTML, the SVG plot) are read and changed
-together; split the rendering out if the app grows its own report view.
+Over the house's ~600 lines: the numbers and the words that present them
+(Markdown, HTML, the SVG plot) are read and changed together; the rendering
+is the part to split out (it is the larger half), and must be if the app
+grows its own report view.
 """
 
 from __future__ import annotations
@@ -236,7 +237,8 @@ def scale_reliability(data: pd.DataFrame, codebook: Codebook) -> pd.DataFrame:
     """One row per scale of ``codebook`` screened on the verified ``data`` (from core.screening).
 
     Columns: scale, items, alpha (Cronbach's, listwise), n (rows alpha used),
-    split-half (Spearman-Brown), score (sum or mean), prorated, too few
+    split-half (Spearman-Brown), score (sum or mean), from fewer items (scores
+    standing with some items unanswered), prorated (those of a sum), too few
     answered, negative items (items whose corrected item-total correlation
     is below zero; a missed reverse key is the usual cause).
 
@@ -248,6 +250,7 @@ def scale_reliability(data: pd.DataFrame, codebook: Codebook) -> pd.DataFrame:
     >>> scale_reliability(df, cb)["negative items"].tolist()
     ['c']
     """
+    from .export import partial_scores
     from .screening import cronbach_alpha, item_analysis, scale_scores, split_half
 
     scored = scale_scores(data, codebook)
@@ -257,7 +260,9 @@ def scale_reliability(data: pd.DataFrame, codebook: Codebook) -> pd.DataFrame:
         rows.append({
             "scale": name, "items": alpha.k, "alpha": alpha.alpha, "n": alpha.n_used,
             "split-half (Spearman-Brown)": split_half(items).spearman_brown,
-            "score": scored.method[name], "prorated": scored.prorated[name],
+            "score": scored.method[name],
+            "from fewer items": partial_scores(items, scored.scores[name]),
+            "prorated": scored.prorated[name],
             "too few answered": scored.too_few[name],
             "negative items": ", ".join(table.loc[table["negative"].astype(bool), "item"]),
         })
@@ -265,7 +270,7 @@ def scale_reliability(data: pd.DataFrame, codebook: Codebook) -> pd.DataFrame:
 
 
 SCALE_COLUMNS = ["scale", "items", "alpha", "n", "split-half (Spearman-Brown)", "score",
-                 "prorated", "too few answered", "negative items"]
+                 "from fewer items", "prorated", "too few answered", "negative items"]
 
 
 def _count(table: pd.DataFrame, column: str, name: str = "discrepancies") -> pd.DataFrame:
@@ -541,7 +546,7 @@ def _screening_parts(report: Report) -> list:
         table = report.screening.copy()
         for col in ("alpha", "split-half (Spearman-Brown)"):
             table[col] = [_num(v, 3) for v in table[col]]
-        for col in ("items", "n", "prorated", "too few answered"):
+        for col in ("items", "n", "from fewer items", "prorated", "too few answered"):
             if col in table:
                 table[col] = [_num(v, 0) for v in table[col]]
         parts += [

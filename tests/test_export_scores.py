@@ -115,6 +115,10 @@ def test_xlsx_carries_the_scores_and_marks_them_computed(exported):
     rule = book["belonging"]["rule"]
     assert "mean" in rule and "belong1, belong2, belong3, belong4, belong5" in rule
     assert "belong3 (1 + 5 - x)" in rule and "80%" in rule and "4 of 5" in rule
+    # Means standing on fewer items, counted from the paper (9 = no answer) by hand.
+    paper = pd.read_csv(FIXTURES / "paper.csv")
+    partial = int(((paper[[f"belong{i}" for i in range(1, 6)]] == 9).sum(axis=1) == 1).sum())
+    assert f"{partial} score(s) from fewer than all items" in rule
     assert "sum" in book["sharing"]["rule"] and "prorated" in book["sharing"]["rule"]
     assert "75%" in book["sharing"]["rule"] and "3 of 4" in book["sharing"]["rule"]
 
@@ -185,5 +189,6 @@ def test_hand_worked_package_validates(tmp_path):
     schema = json.loads((tmp_path / "pkg" / "schema.json").read_text())
     s = next(f for f in schema["fields"] if f["name"] == "S")
     assert s["keyproof:computed"]["prorated"] == 1 and s["keyproof:computed"]["too_few"] == 2
+    assert s["keyproof:computed"]["partial"] == 1  # p2, three of four items
     assert s["keyproof:computed"]["reversed"] == ["c (1 + 5 - x)"]
     assert "c (1 + 5 - x)" in s["description"] and "sum x 4 / answered" in s["description"]

@@ -128,4 +128,7 @@ def test_report_shows_a_rules_count_after_setting_participants_aside(resolved, t
     assert belonging["alpha"] == pytest.approx(alpha, rel=1e-9)
     assert belonging["n"] == len(items.dropna())
     assert belonging["too few answered"] == 0 and belonging["negative items"] == ""
+    # Scores standing on 4 of the 5 items (at least 80 % answered, the codebook's share).
+    answered = items.notna().sum(axis=1)
+    assert belonging["from fewer items"] == int(((answered >= 4) & (answered < 5)).sum())
     assert "Scale reliability" in md and f"{alpha:.3f}" in md
