@@ -97,6 +97,7 @@ class ScreeningScreen(Screen):
         self.study = study
         self.view: ScreeningData | None = None
         self.page = "overview"
+        self._texts: dict[str, str] = {}
 
     def compose(self) -> ComposeResult:
         yield Header()
@@ -120,13 +121,16 @@ class ScreeningScreen(Screen):
         except KeyproofError as exc:
             self.app.call_from_thread(self._failed, str(exc))
             return
-        self.app.call_from_thread(self._show, view)
+        # The overview tabulates every variable (most of a second at 5,000 x 300),
+        # so it is written here; a single scale's or variable's page takes milliseconds.
+        self.app.call_from_thread(self._show, view, page_text(view, "overview"))
 
     def _failed(self, text: str) -> None:
         self.query_one("#screening-state", Static).update(f"could not screen: {text}")
 
-    def _show(self, view: ScreeningData) -> None:
+    def _show(self, view: ScreeningData, overview: str) -> None:
         self.view = view
+        self._texts = {"overview": overview}
         pages = page_ids(view)
         if self.page not in {pid for pid, _ in pages}:
             self.page = "overview"
@@ -138,8 +142,11 @@ class ScreeningScreen(Screen):
         self._paint()
 
     def _paint(self) -> None:
-        if self.view is not None:
-            self.query_one("#screening-page", Static).update(page_text(self.view, self.page))
+        if self.view is None:
+            return
+        if self.page not in self._texts:
+            self._texts[self.page] = page_text(self.view, self.page)
+        self.query_one("#screening-page", Static).update(self._texts[self.page])
 
     @on(OptionList.OptionHighlighted, "#screening-menu")
     def _highlighted(self, event: OptionList.OptionHighlighted) -> None:

@@ -14,6 +14,7 @@ from dataclasses import dataclass, field
 
 import pandas as pd
 
+from core.codebook import Codebook
 from core.screening import Descriptives, Screening, text_histogram
 from tui.commands.screen import (
     FOOTNOTE,
@@ -48,7 +49,7 @@ class ScreeningData:
 
     result: Screening
     data: pd.DataFrame
-    codebook: object
+    codebook: Codebook
     study: str
     notes: tuple[str, ...] = ()
     open_cells: pd.DataFrame = field(default_factory=pd.DataFrame)
