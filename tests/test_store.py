@@ -170,6 +170,27 @@ def test_audit_catches_value_changed_behind_journal(study):
     assert not result.ok and 'field "age"' in result.message and '"99"' in result.message
 
 
+@pytest.mark.parametrize(
+    ("sql", "words"),
+    [
+        ("INSERT INTO form_values VALUES ({b}, 'note', 'sneaked in', 'keyed')", "never recorded it"),
+        ("DELETE FROM form_values WHERE form_id = {b} AND variable = 'q1'", "is missing"),
+        # A separator character inside a text must not shift the other fields.
+        ("UPDATE form_values SET text = 'a' || char(31) || 'b' WHERE form_id = {a} AND variable = 'q1'",
+         "changed outside keyproof"),
+    ],
+)  # fmt: skip
+def test_audit_catches_values_added_deleted_or_split_behind_journal(study, sql, words):
+    _three_values(study)
+    a, b = study.import_pass(2, "CD", pd.DataFrame({"pid": ["5", "6"], "q1": ["1", "2"]}))
+    assert study.audit().ok
+    con = raw(study)
+    con.execute(sql.format(a=a, b=b))
+    con.commit()
+    result = Study.open(study.path, readonly=True).audit()
+    assert not result.ok and words in result.message
+
+
 def test_audit_reports_dropped_triggers_alone(study):
     _three_values(study)
     _tamper(study)
@@ -358,19 +379,46 @@ def test_forward_migration_and_newer_schema(study, monkeypatch):
     import core.store as store
 
     study.close()
-    # A made-up version 2 that adds a column: opening the old file migrates it.
-    monkeypatch.setitem(store.MIGRATIONS, 2, ["ALTER TABLE forms ADD COLUMN page INTEGER"])
-    monkeypatch.setattr(store, "SCHEMA_VERSION", 2)
+    # A made-up next version that adds a column: opening the old file migrates it.
+    nxt = store.SCHEMA_VERSION + 1
+    monkeypatch.setitem(store.MIGRATIONS, nxt, ["ALTER TABLE forms ADD COLUMN page INTEGER"])
+    monkeypatch.setattr(store, "SCHEMA_VERSION", nxt)
     with pytest.raises(StoreError, match="older schema"):
         Study.open(study.path, readonly=True)
     Study.open(study.path).close()
     con = raw(study)
-    assert con.execute("PRAGMA user_version").fetchone()[0] == 2
+    assert con.execute("PRAGMA user_version").fetchone()[0] == nxt
     assert "page" in [r[1] for r in con.execute("PRAGMA table_info(forms)")]
     con.execute("PRAGMA user_version = 9")
     con.close()
     with pytest.raises(StoreError, match=r"newer keyproof \(schema 9"):
         Study.open(study.path)
+
+
+def test_version_1_file_is_migrated_with_its_values(tmp_path, monkeypatch):
+    import core.store as store
+
+    # Write a study as schema version 1 did (form_values with a rowid and an IN check).
+    monkeypatch.setattr(store, "SCHEMA_VERSION", 1)
+    with Study.create(tmp_path / "old.sqlite", CB, "AB") as old:
+        old.import_pass(1, "AB", pd.DataFrame({"pid": ["1", "2"], "age": ["30", ""], "note": ["x", None]}))
+        f = old.start_form(2, "CD")
+        old.set_value(f, "q1", "2", "keyed", "CD")
+    con = sqlite3.connect(tmp_path / "old.sqlite")
+    before = con.execute("SELECT form_id, variable, text, state FROM form_values ORDER BY 1, 2").fetchall()
+    con.close()
+    monkeypatch.undo()
+    with Study.open(tmp_path / "old.sqlite") as study:
+        assert study.audit().ok
+    con = sqlite3.connect(tmp_path / "old.sqlite")
+    assert con.execute("PRAGMA user_version").fetchone()[0] == 2
+    sql = con.execute("SELECT sql FROM sqlite_master WHERE name = 'form_values'").fetchone()[0]
+    assert "WITHOUT ROWID" in sql and " IN (" not in sql
+    after = con.execute("SELECT form_id, variable, text, state FROM form_values ORDER BY 1, 2").fetchall()
+    assert after == before and len(after) == 6
+    # sqlite3 is the reference reader of the file format: the rebuilt file is sound.
+    assert con.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
+    assert con.execute("PRAGMA foreign_key_check").fetchall() == []
 
 
 def test_two_open_studies_keep_one_chain(study):
