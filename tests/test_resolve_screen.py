@@ -392,3 +392,26 @@ def test_resolve_command_refuses_bad_input(tmp_path, capsys):
     assert cli.main(["resolve", str(tmp_path / "none.sqlite"), "--keyer", "LM"]) == 2
     err = capsys.readouterr().err
     assert err.startswith("keyproof resolve: ") and "none.sqlite" in err and "Traceback" not in err
+
+
+@sync
+async def test_keys_typed_in_a_burst_land_in_their_dialogs(tmp_path):
+    # Keys queued faster than dialogs open (as a quick typist or a terminal's
+    # paste delivers them): each still reaches the dialog it was meant for.
+    from textual import events
+
+    path = small_study(tmp_path)
+    app = make_app(path, mode="resolve", keyer="LM")
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        for key in ["5", "1", "enter", "3", "2", "enter"]:  # 2/q1: paper 1; 3/q2: pass 2
+            app.post_message(events.Key(key, "\r" if key == "enter" else key))
+        await pilot.pause()
+        await pilot.pause()
+        assert isinstance(app.screen, ResolveScreen)
+    with Study.open(path, readonly=True) as study:
+        d = study.decisions()
+    assert d[["participant", "variable", "value", "reason"]].values.tolist() == [
+        ["2", "q1", "1", "checked against paper: both wrong"],
+        ["3", "q2", "4", "checked against paper: pass 2 right"],
+    ]

@@ -8,6 +8,7 @@ resolution screen records the decision.
 
 from __future__ import annotations
 
+from textual import events
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Vertical
@@ -29,6 +30,30 @@ DIALOG_CSS = """
 
 #: Keys that pick entries 1..10 of a list, in order.
 PICK_KEYS = ("1", "2", "3", "4", "5", "6", "7", "8", "9", "0")
+
+
+async def keys_in_order(screen, event: events.Key) -> None:
+    """Call from a screen's ``on_key`` so keys typed quickly keep their order across dialogs.
+
+    Textual hands a key to the screen on top when the key is read, and runs a
+    screen's bindings only once the key has bubbled back up to the app; by
+    then the next keys are already queued on the old screen. So "5", "4",
+    "2", Enter typed in a burst would open the value dialog and lose the
+    value. Here the screen runs its own binding at once (a dialog it opens
+    is then on top), and hands keys that reach it while a dialog is on top
+    on to that dialog.
+    """
+    top = screen.app.screen
+    if top is not screen:
+        event.stop()
+        event.prevent_default()
+        top.post_message(events.Key(event.key, event.character))
+        return
+    active = screen.active_bindings.get(event.key)
+    if active is not None and active.enabled and active.node is screen:
+        event.stop()
+        event.prevent_default()
+        await screen.run_action(active.binding.action)
 
 
 def _list_text(items: list[str], marked: int) -> str:
@@ -67,6 +92,9 @@ class PickList(ModalScreen[str | None]):
             yield Static(self.note, classes="dialog-note", markup=False)
         yield Static(_list_text(self.items, self.marked), classes="dialog-list", markup=False)
         yield Static(self.HINT, classes="dialog-hint", markup=False)
+
+    async def on_key(self, event: events.Key) -> None:
+        await keys_in_order(self, event)
 
     def _repaint(self) -> None:
         self.query_one(".dialog-list", Static).update(_list_text(self.items, self.marked))
@@ -155,10 +183,32 @@ class ValueDialog(ModalScreen[str | None]):
     def on_mount(self) -> None:
         self.query_one("#value-text", Input).focus()
 
+    async def on_key(self, event: events.Key) -> None:
+        # Keys typed right after the one that opened this dialog reach the
+        # screen, not the field: they are put into the field here. Keys that
+        # come after Enter go on to whatever is on top by then.
+        if self.app.screen is not self:
+            await keys_in_order(self, event)
+            return
+        field = self.query_one("#value-text", Input)
+        if event.key == "enter":
+            event.stop()
+            self._submit(field.value)
+        elif event.key == "backspace":
+            event.stop()
+            field.value = field.value[:-1]
+        elif event.is_printable and event.character:
+            event.stop()
+            field.value += event.character
+            field.cursor_position = len(field.value)
+
     def on_input_submitted(self, event: Input.Submitted) -> None:
         event.stop()
-        if event.value.strip() or self.allow_empty:
-            self.dismiss(event.value)
+        self._submit(event.value)
+
+    def _submit(self, value: str) -> None:
+        if value.strip() or self.allow_empty:
+            self.dismiss(value)
 
     def action_cancel(self) -> None:
         self.dismiss(None)

@@ -15,7 +15,7 @@ computed again in the background. ``r`` does the same on demand.
 from __future__ import annotations
 
 import numpy as np
-from textual import work
+from textual import events, work
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.screen import Screen
@@ -26,7 +26,7 @@ from core.errors import KeyproofError
 
 from ..widgets.discrepancy_detail import DiscrepancyDetail, detail_text
 from ..widgets.worklist import WorklistView
-from .reason_dialog import ChoiceDialog, ReasonDialog, ValueDialog
+from .reason_dialog import ChoiceDialog, ReasonDialog, ValueDialog, keys_in_order
 
 CELL_ACTIONS = {"take_pass", "paper_value", "blank", "missing_code", "keep"}
 FORM_ACTIONS = {"pair", "drop", "confirm"}
@@ -225,6 +225,9 @@ class ResolveScreen(Screen):
         if action == "leave":
             return self.can_leave
         return True
+
+    async def on_key(self, event: events.Key) -> None:
+        await keys_in_order(self, event)
 
     def say(self, text: str) -> None:
         self.query_one("#resolve-message", Static).update(text)

@@ -8,6 +8,7 @@ The list is short (participants, not cells), so a stock DataTable is fine.
 
 from __future__ import annotations
 
+from textual import events
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Vertical
@@ -17,7 +18,7 @@ from textual.widgets import DataTable, Footer, Input, Static
 from core import resolution as res
 from core.errors import KeyproofError
 
-from .reason_dialog import DIALOG_CSS, ValueDialog
+from .reason_dialog import DIALOG_CSS, ValueDialog, keys_in_order
 
 
 class SetAsideDialog(ModalScreen[tuple[str, str, str] | None]):
@@ -104,6 +105,9 @@ class SetAsideView(Screen):
         n = len(self.participants)
         self.query_one("#aside-heading", Static).update(
             f"Participants set aside: {n}" if n else "No participant is set aside.")
+
+    async def on_key(self, event: events.Key) -> None:
+        await keys_in_order(self, event)
 
     def action_undo(self) -> None:
         table = self.query_one("#aside-table", DataTable)
