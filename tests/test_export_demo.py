@@ -153,6 +153,9 @@ def test_resolved_demo_exports_the_paper_in_every_format(demo, tmp_path, capsys)
     assert "60 participants" in out and "initials" in out
     expected = _paper_frame(drop=["initials"])
     got = pd.read_csv(tmp_path / "v.csv")
+    # The verified file ends with one computed score per scale (issue 7).
+    assert set(got.columns) - set(expected.columns) == {"belonging", "workdays", "sharing"}
+    got = got[list(expected.columns)]
     pd.testing.assert_frame_equal(got, expected, check_dtype=False)
     who = pd.read_csv(ident)
     assert list(who.columns) == ["member_id", "initials"]

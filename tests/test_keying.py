@@ -178,6 +178,24 @@ async def test_auto_advance_at_width_and_its_switch(tmp_path):
 
 
 @sync
+async def test_the_participant_id_waits_for_enter_even_at_its_width(tmp_path):
+    # The prompt says "then Enter": an ID that moved on by itself would turn the
+    # keyer's Enter into a blank first field.
+    cb = Codebook((Variable("pid", "integer", is_id=True, min=100, max=999),
+                   Variable("initials", "string", width=3)))
+    path = make_study(tmp_path, cb, auto_advance=True)
+    app = make_app(path, mode="key", pass_no=1, keyer="AB")
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("7", "9", "6")
+        assert app.screen.model.mode == ID_MODE
+        await pilot.press("enter", "Q", "Z", "X")
+        assert app.screen.model.mode == REVIEW_MODE
+    (form,) = stored(path)
+    assert (form.texts["pid"], form.texts["initials"], form.states["initials"]) == (
+        "796", "QZX", "keyed")
+
+
+@sync
 async def test_going_back_to_correct_journals_old_and_new(tmp_path):
     path = make_study(tmp_path)
     app = make_app(path, mode="key", pass_no=1, keyer="AB")
@@ -402,7 +420,8 @@ async def test_a_demo_form_keyed_from_its_paper_with_auto_advance(tmp_path, row)
             typed[var.name] = parsed.value
         keys += list(value)
         width = var.implied_width
-        keys += [] if width and len(value) >= width else ["enter"]
+        # The participant ID always takes Enter; other fields move on when full.
+        keys += [] if width and len(value) >= width and not var.is_id else ["enter"]
         keys += ["enter"] if parsed.problem else []
     app = make_app(path, mode="key", pass_no=1, keyer="AB")
     async with app.run_test(size=SIZE) as pilot:

@@ -18,6 +18,7 @@ COMMANDS: dict[str, tuple[str, str]] = {
     "demo": ("demo", "create the invented demo study, then open the app on it"),
     "init": ("init", "create a new study from a codebook (.csv, .xlsx, Table Schema .json)"),
     "codebook": ("codebook", "show a study's codebook, or update it from a file"),
+    "home": ("home", "open the app's home screen on a study"),
     "key": ("key", "open the keying screen for one pass"),
     "import": ("import_", "bring in a pass keyed in a spreadsheet (.csv, .xlsx)"),
     "status": ("status", "progress of each pass and the work left open"),

@@ -87,6 +87,7 @@ def _summary(result, identifying: str | None) -> str:
     lines = [
         f"wrote {result.path}: {result.rows} participant{'s' if result.rows != 1 else ''}, "
         f"{result.columns} variable{'s' if result.columns != 1 else ''}"
+        + (f" + {len(result.computed)} computed scale score(s)" if result.computed else "")
         + (" (DRAFT)" if result.provenance and result.provenance.draft else "")
     ]
     if result.open_cells:

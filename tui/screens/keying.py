@@ -85,8 +85,10 @@ class KeyingScreen(Screen):
     def editor_changed(self, text: str) -> None:
         m = self.model
         m.text_changed(text)
-        # The participant ID is a field like the others: it auto-advances too.
-        if m.mode in (FIELD_MODE, ID_MODE) and text and m.reaches_width(text):
+        # Only fields auto-advance. The participant ID always takes Enter, as its
+        # prompt says: a keyer's habitual Enter after an ID that moved on by itself
+        # would otherwise record the form's first field as blank on paper.
+        if m.mode == FIELD_MODE and text and m.reaches_width(text):
             self.editor_confirm(text)
 
     def editor_confirm(self, text: str) -> None:
