@@ -18,7 +18,7 @@ LARGE = 200_000
 
 
 def configure(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("inputs", nargs="+", metavar="STUDY | FILE1 FILE2",
+    parser.add_argument("inputs", nargs="+", metavar="FILE",
                         help="a study file, or two keyed files (.csv, .xlsx) of the same stack")
     parser.add_argument("--codebook", metavar="CB",
                         help="the codebook of the two keyed files (.csv, .xlsx, Table Schema .json)")
