@@ -239,3 +239,27 @@ async def test_an_open_study_is_screened_as_a_draft_and_rules_wait_for_its_open_
         await settle(app, pilot)
     with Study.open(study_path, readonly=True) as study:
         assert study.set_asides().empty
+
+
+@sync
+async def test_a_study_with_nothing_keyed_says_so_and_every_page_opens(tmp_path):
+    from core.codebook import Code, Codebook, Variable
+
+    codebook = Codebook((
+        Variable("pid", "integer", is_id=True),
+        Variable("q1", "integer", min=1, max=5, scale="A"),
+        Variable("q2", "integer", min=1, max=5, scale="A"),
+        Variable("c", "integer", codes=(Code("1", "yes"), Code("2", "no"))),
+    ))  # fmt: skip
+    path = tmp_path / "empty.sqlite"
+    Study.create(path, codebook, "LM").close()
+    app = make_app(path)
+    async with app.run_test(size=SIZE) as pilot:
+        await open_screening(app, pilot)
+        assert "Nobody in the verified table yet" in page(app)
+        await show(app, pilot, "scale:A")
+        assert "Cronbach's alpha not defined (listwise, n used 0)" in page(app)
+        await show(app, pilot, "var:q1")
+        assert "n 0; mean —; SD —" in page(app)  # undefined, not zero
+        await show(app, pilot, "var:c")
+        assert "yes" in page(app) and "no" in page(app)  # the code labels, with no counts yet

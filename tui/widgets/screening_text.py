@@ -150,7 +150,9 @@ def variable_text(view: ScreeningData, name: str) -> str:
     d = view.result.variables[name]
     var = view.codebook[name]
     head = f"{name}: {var.label}" if getattr(var, "label", "") else name
-    lines = [head, f"type {var.type}; n {d.n}; blank {d.blank}"]
+    # Measured numbers give n with their moments, below.
+    counts = f"blank {d.blank}" if d.measured else f"n {d.n}; blank {d.blank}"
+    lines = [head, f"type {var.type}; {counts}"]
     if d.missing:
         codes = {c.value: c.label for c in var.missing}
         lines.append("missing codes: " + "; ".join(
@@ -175,12 +177,15 @@ def variable_text(view: ScreeningData, name: str) -> str:
 
 
 def _numbers(d: Descriptives) -> list[str]:
+    def num(x) -> str:
+        return fmt(x) or "—"  # undefined (too few values)
+
     f = d.fences
     return [
-        f"n {d.n}; mean {fmt(d.mean)}; SD {fmt(d.sd)}; median {fmt(d.median)}; "
-        f"min {fmt(d.min)}; max {fmt(d.max)}",
-        f"skewness {fmt(d.skewness)}; kurtosis {fmt(d.kurtosis)} (adjusted G1, G2)",
-        f"Tukey's fences {fmt(f.low)} to {fmt(f.high)} (1.5 × IQR, quartiles type 7)",
+        f"n {d.n}; mean {num(d.mean)}; SD {num(d.sd)}; median {num(d.median)}; "
+        f"min {num(d.min)}; max {num(d.max)}",
+        f"skewness {num(d.skewness)}; kurtosis {num(d.kurtosis)} (adjusted G1, G2)",
+        f"Tukey's fences {num(f.low)} to {num(f.high)} (1.5 × IQR, quartiles type 7)",
         f"outlier candidates: |z| > 3.29: {_ids(d.outliers_z)}; "
         f"beyond fences: {_ids(d.outliers_tukey)}",
     ]
