@@ -138,6 +138,7 @@ class ResolveScreen(Screen):
         else:
             self.worklist.set_view(self.worklist.view, at=at)
         self._land_on = None
+        self.say("")
         self.show_current()
 
     # ------------------------------------------------------------------ shown state
