@@ -444,13 +444,6 @@ class Study:
         the forms' copies (codebook variables only)."""
         index = pd.Index([r[0] for r in self._query("SELECT form_id FROM forms ORDER BY form_id")],
                          dtype="int64")  # fmt: skip
-        try:
-            with self._lock, self._errors():
-                cells = _read_values(self._conn.cursor(), self.name)
-        except StoreError:
-            return None, ("the values table holds a value that is not text, or text with the "
-                          "control character U+001F — the file was changed outside keyproof; "
-                          "compare it with a backup.")  # fmt: skip
         names = self.codebook.names
         imports = [r for r in rows if r[3] == "import_form"]
         # One parse for all import rows: their detail is JSON the chain check
@@ -458,15 +451,29 @@ class Study:
         parsed = json.loads("[" + ",".join(r[11] for r in imports) + "]")
         details = {r[0]: d for r, d in zip(imports, parsed, strict=True)}
         seen = {r[5] for r in rows if r[3] == "set_value"}
-        seen.update(pd.unique(cells[1]))
         for keys in {tuple(d["text"]) for d in parsed}:
             seen.update(keys)
         universe = names + sorted(seen - set(names))
         expected = replay_grid(rows, index, universe, details)
-        bad = first_difference(expected, _grid(index, universe, cells), index, universe,
-                               "the values table")  # fmt: skip
-        if bad is not None:
-            return bad
+        with self._lock, self._errors():
+            same = _values_agree(self._conn.cursor(), expected, index, universe)
+        if not same:
+            # Something differs: read every cell to name the first one that does.
+            try:
+                with self._lock, self._errors():
+                    cells = _read_values(self._conn.cursor(), self.name)
+            except StoreError:
+                return None, ("the values table holds a value that is not text, or text with the "
+                              "control character U+001F — the file was changed outside keyproof; "
+                              "compare it with a backup.")  # fmt: skip
+            extra = sorted(set(pd.unique(cells[1])) - set(universe))
+            if extra:  # variables the journal never wrote
+                universe = universe + extra
+                expected = replay_grid(rows, index, universe, details)
+            bad = first_difference(expected, _grid(index, universe, cells), index, universe,
+                                   "the values table")  # fmt: skip
+            if bad is not None:
+                return bad
         try:
             copies = [self.load_pass(n, include_dropped=True) for n in (1, 2)]
         except StoreError:
@@ -1107,6 +1114,49 @@ def _decode_states(blobs: list[str], width: int, name: str) -> tuple[np.ndarray,
     return _STATE_LOOKUP[codes], codes == ord(_NOT_KEYED)
 
 
+#: Each form's stored cells as one string: variable, text, state, all joined by U+001F.
+_CELLS_PER_FORM = (
+    "SELECT form_id, COUNT(*), group_concat(variable || ? || text || ? || state, ?) "
+    "FROM form_values GROUP BY form_id"
+)
+
+
+def _values_agree(
+    cur: sqlite3.Cursor, expected: tuple[np.ndarray, ...], index: pd.Index, names: list[str]
+) -> bool:
+    """Whether form_values holds exactly the ``expected`` (text, state) grids.
+
+    The audit's fast path: SQLite joins each form's cells into one string
+    (:data:`_CELLS_PER_FORM`) and the same string is built from the replayed
+    journal, so one string comparison per form stands for 300 cell
+    comparisons and no per-cell object crosses from SQLite. The cells of a
+    form come in key order (variable names by code point) when SQLite reads
+    the clustered table; if it ever concatenated in another order this says
+    False and the caller falls back to reading every cell, which is slower
+    but never wrong. Equal strings with equal counts mean equal cells: a text
+    cannot hold U+001F (the store refuses it), and one smuggled in would add
+    pieces, which the count gives away.
+    """
+    text, state = expected[0], expected[1]
+    order = np.argsort(np.asarray(names, dtype=object), kind="stable")
+    sorted_names = np.asarray(names, dtype=object)[order]
+    text, state = text[:, order], state[:, order]
+    keyed = state != None  # noqa: E711 - elementwise on an object array
+    stored = {r[0]: (r[1], r[2]) for r in cur.execute(_CELLS_PER_FORM, (_SEP, _SEP, _SEP))}
+    counts = keyed.sum(axis=1)
+    if len(stored) != int((counts > 0).sum()):
+        return False
+    triples = np.empty((*text.shape, 3), dtype=object)
+    triples[:, :, 0], triples[:, :, 1], triples[:, :, 2] = sorted_names, text, state
+    for i, form_id in enumerate(index.tolist()):
+        if not counts[i]:
+            continue
+        got = stored.get(form_id)
+        if got is None or got[0] != counts[i] or got[1] != _SEP.join(triples[i][keyed[i]].ravel().tolist()):
+            return False
+    return True
+
+
 def _read_values(cur: sqlite3.Cursor, name: str) -> tuple[np.ndarray, ...]:
     """Every row of form_values as four arrays (form_id, variable, text, state).
 
@@ -1116,11 +1166,7 @@ def _read_values(cur: sqlite3.Cursor, name: str) -> tuple[np.ndarray, ...]:
     rows to fetch rather than 3 million tuples. Each cell carries its variable
     name, so the order SQL concatenates in does not matter.
     """
-    per_form = cur.execute(
-        "SELECT form_id, COUNT(*), group_concat(variable || ? || text || ? || state, ?) "
-        "FROM form_values GROUP BY form_id",
-        (_SEP, _SEP, _SEP),
-    ).fetchall()
+    per_form = cur.execute(_CELLS_PER_FORM, (_SEP, _SEP, _SEP)).fetchall()
     ids = np.array([r[0] for r in per_form], dtype=np.int64)
     counts = np.array([r[1] for r in per_form], dtype=np.int64)
     blobs = [r[2] for r in per_form]

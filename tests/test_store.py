@@ -191,6 +191,30 @@ def test_audit_catches_values_added_deleted_or_split_behind_journal(study, sql, 
     assert not result.ok and words in result.message
 
 
+def test_audit_fast_path_agrees_with_reading_every_cell(study, monkeypatch):
+    import core.store as store
+
+    # A study with every kind of value write: import (with an illegible cell),
+    # keyed changes over it, and a variable later dropped from the codebook.
+    extra = Codebook(CB.variables + (Variable("gone", "string"),))
+    study.update_codebook(extra, "AB")
+    texts = pd.DataFrame({"pid": ["1", "2"], "age": ["30", ""], "note": ["é", None], "gone": ["g", "h"]})
+    states = pd.DataFrame({c: [None, None] for c in texts.columns})
+    states.loc[0, "note"] = "illegible"
+    a, _ = study.import_pass(1, "AB", texts, states)
+    study.set_value(a, "age", "31", "keyed", "AB")
+    study.update_codebook(CB, "AB", force=True)
+    calls = []
+    real = store._values_agree
+    monkeypatch.setattr(store, "_values_agree", lambda *x: calls.append(real(*x)) or calls[-1])
+    assert study.audit().ok and calls == [True]  # healthy: the per-form strings match
+    con = raw(study)
+    con.execute(f"UPDATE form_values SET text = '32' WHERE form_id = {a} AND variable = 'age'")
+    con.commit()
+    result = study.audit()
+    assert calls[-1] is False and not result.ok and '"32"' in result.message
+
+
 def test_audit_reports_dropped_triggers_alone(study):
     _three_values(study)
     _tamper(study)
