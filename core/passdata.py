@@ -10,6 +10,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
+import numpy as np
 import pandas as pd
 
 from .values import BLANK, KEYED
@@ -46,8 +47,15 @@ class PassData:
         >>> list(p.state["q1"])
         ['keyed', 'blank']
         """
-        text = texts.astype("string").fillna("").astype(object)
-        state = text.map(lambda t: KEYED if str(t).strip() else BLANK)
+        text = texts.fillna("").astype(object)
+        # Blankness is worked out once per distinct text of a column (keyed
+        # columns hold few distinct texts), never with a Python call per cell.
+        states = {}
+        for name in text.columns:
+            codes, uniques = pd.factorize(text[name], use_na_sentinel=False)
+            blank = np.fromiter((not str(u).strip() for u in uniques), bool, len(uniques))
+            states[name] = np.where(blank[codes], BLANK, KEYED)
+        state = pd.DataFrame(states, index=text.index, columns=text.columns, dtype=object)
         keyers = pd.Series(keyer, index=text.index, dtype="string")
         labels = pd.Series(
             [f"{label_prefix} {i}" for i in text.index], index=text.index, dtype="string"
