@@ -18,9 +18,31 @@ carries a SHA-256 over its own content plus the previous row's hash, so
 :meth:`Study.audit` can name the first row edited, deleted or reordered even
 when someone dropped the triggers first.
 
+An imported pass is one transaction: one ``executemany`` per table with
+tuples prepared from numpy arrays, and ONE journal row per form whose
+``detail`` holds the form's texts (and its illegible fields) as canonical
+JSON. The trade-off, decided on purpose: a journal row per field would make
+the journal 300 times longer (and the import and the audit as much slower)
+without recording anything more, since the form's row names every value
+written, who wrote it and when, and is hashed into the chain like any other.
+What it costs is granularity of the journal, not of the proof: ``audit``
+replays the import rows and the later ``set_value`` rows into the grid of
+values the study must hold and compares it with the values table and with
+the forms' copies, so a single value changed, added or removed behind the
+journal's back is named by form and field. The values table itself still
+has one row per field; ``bench/store.py`` compares the import with a bare
+``executemany`` of those rows.
+
+The audit is linear in the journal and the values: the chain is one pass of
+SHA-256 over rows read in one query, the import details are parsed in one
+``json.loads``, and the stored values arrive as one string per form
+(``group_concat`` in SQL), compared with the same string built from the
+replay; only when a form differs are the cells read one by one to name it.
+
 All SQL of keyproof lives in this module. It is kept portable (standard DDL,
-no SQLite-only functions) except for PRAGMAs, the trigger bodies and
-``BEGIN IMMEDIATE``, so a server database can be added later. The file is
+no SQLite-only functions besides ``group_concat``) except for PRAGMAs, the
+trigger bodies, ``WITHOUT ROWID`` and ``BEGIN IMMEDIATE``, so a server
+database can be added later. The file is
 longer than the usual ~600 lines for that reason: it is the one place that
 speaks SQL, and splitting the class would spread the SQL out.
 """
