@@ -6,6 +6,7 @@ the public face: callers use the names below; everything else is a helper.
 
 from .codebook import Code, Codebook, Variable
 from .codebook_io import CodebookDiff, diff_codebooks, load_codebook
+from .compare import Summary, compare_passes, compare_study, summarise
 from .conditions import Condition, parse_condition
 from .demo import make_demo_study
 from .errors import (
@@ -50,11 +51,14 @@ __all__ = [
     "Screening",
     "StoreError",
     "Study",
+    "Summary",
     "UsageError",
     "Variable",
     "Verified",
     "apply_decisions_file",
     "build_report",
+    "compare_passes",
+    "compare_study",
     "diff_codebooks",
     "export",
     "import_file",
@@ -64,6 +68,7 @@ __all__ = [
     "read_keyed_file",
     "read_pass_file",
     "screen",
+    "summarise",
     "verified_table",
     "worklist",
 ]
