@@ -31,6 +31,7 @@ import re
 import unicodedata
 from dataclasses import dataclass
 from datetime import datetime
+from functools import lru_cache
 
 import pandas as pd
 
@@ -122,28 +123,71 @@ def canonical_series(var: Variable, texts: pd.Series) -> tuple[pd.Series, pd.Ser
     >>> list(c), list(ok)
     (['3.5', '3.5', '1.2.3'], [True, True, False])
     """
+    if len(texts) <= _SMALL:
+        # Codebook codes, one ID, one field: a few texts, where building pandas
+        # objects would cost milliseconds a call. Same rules, plain Python.
+        items = texts.tolist()
+        if all(isinstance(t, str) or t is None for t in items):
+            canon, valid = _canonical_small(var.type, var.format, tuple(items))
+            return (pd.Series(canon, index=texts.index, dtype=object),
+                    pd.Series(valid, index=texts.index, dtype=bool))
+    return _canonical_columns(var.type, var.format, texts)
+
+
+#: Up to this many texts go through the per-text path with its cache.
+_SMALL = 64
+_PLUS = re.compile(r"^\+")
+_ZEROS = re.compile(r"^(-?)0+(?=\d)")
+
+
+@lru_cache(maxsize=8192)
+def _canonical_small(type_: str, fmt: str, texts: tuple) -> tuple[list, list]:
+    """``canonical_series`` of a few texts (str or None), cached: codebooks repeat their codes."""
+    if type_ in ("string", "integer"):
+        canon, valid = [], []
+        # As the column path gives them: NaN for a missing entry, None when all are missing.
+        absent = None if all(t is None for t in texts) else float("nan")
+        for text in texts:
+            if text is None:
+                canon.append(absent)
+                valid.append(True)
+                continue
+            text = clean_text(text)
+            ok = type_ == "string" or _INTEGER.fullmatch(text) is not None
+            if ok and type_ == "integer":
+                text = _ZEROS.sub(r"\1", _PLUS.sub("", text))
+                text = "0" if text == "-0" else text
+            canon.append(text)
+            valid.append(ok)
+        return canon, valid
+    # Numbers and dates keep pandas' parsers, so a code reads exactly as a keyed cell would.
+    canon, valid = _canonical_columns(type_, fmt, pd.Series(list(texts), dtype=object))
+    return canon.tolist(), valid.tolist()
+
+
+def _canonical_columns(type_: str, fmt: str, texts: pd.Series) -> tuple[pd.Series, pd.Series]:
     present = texts.notna()
     s = texts.where(present, None).astype(object)
     s = s.map(clean_text, na_action="ignore")
-    if var.type == "string":
+    if type_ == "string":
         return s, pd.Series(True, index=texts.index)
-    if var.type == "integer":
+    if type_ == "integer":
         ok = s.str.fullmatch(_INTEGER.pattern).fillna(False).astype(bool)
         canon = s.where(~ok, s.str.replace(r"^\+", "", regex=True)
                         .str.replace(r"^(-?)0+(?=\d)", r"\1", regex=True)
                         .str.replace(r"^-0$", "0", regex=True))
-    elif var.type == "number":
+    elif type_ == "number":
         ok = s.str.fullmatch(_NUMBER.pattern).fillna(False).astype(bool)
         numbers = pd.to_numeric(s.where(ok).str.replace(",", ".", regex=False), errors="coerce")
         canon = s.where(~ok, numbers.map(lambda x: repr(float(x)) if x == x else None))
         canon = canon.where(canon != "-0.0", "0.0")
-    elif var.type == "date":
-        fmt = var.format or ISO_DATE
+    elif type_ == "date":
+        fmt = fmt or ISO_DATE
         dates = pd.to_datetime(s, format=fmt, errors="coerce")
         ok = dates.notna()
         canon = s.where(~ok, dates.dt.strftime(ISO_DATE))
     else:  # pragma: no cover - the codebook loader refuses unknown types
-        raise ValueError(f"unknown type {var.type!r}")
+        raise ValueError(f"unknown type {type_!r}")
     valid = ok | ~present
     return canon.where(present, None), valid
 

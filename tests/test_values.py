@@ -2,6 +2,8 @@
 
 import pandas as pd
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from core.codebook import Code, Variable
 from core.values import INVALID_TYPE, NOT_IN_CODES, OUT_OF_RANGE, canonical_series, parse
@@ -86,3 +88,27 @@ def test_vectorised_equals_one_by_one():
             parsed = parse(AGE, text)
             assert canon.iloc[i] == parsed.canonical
             assert bool(valid.iloc[i]) == (parsed.problem != INVALID_TYPE)
+
+
+# A few texts take a per-text path (codebook codes, one field); a column takes
+# pandas string operations. Both must read every text alike.
+_KEYED_TEXT = st.text(alphabet=st.sampled_from(list("0123456789+-., aé\u0301٣\t")), max_size=6)
+
+
+@settings(max_examples=60, deadline=None)
+@given(texts=st.lists(st.one_of(st.none(), _KEYED_TEXT), min_size=1, max_size=8),
+       type_=st.sampled_from(["integer", "string", "number"]))
+def test_few_texts_read_as_in_a_long_column(texts, type_):
+    var = Variable("v", type_)
+    few, few_ok = canonical_series(var, pd.Series(texts, dtype=object))
+    # Padding past the per-text path's limit sends the same texts through pandas.
+    many, many_ok = canonical_series(var, pd.Series(texts * 40, dtype=object))
+    head = many.iloc[: len(texts)].set_axis(few.index)
+    assert few.isna().tolist() == head.isna().tolist()
+    assert few.dropna().tolist() == head.dropna().tolist()
+    assert few_ok.tolist() == many_ok.tolist()[: len(texts)]
+    if type_ == "integer":
+        for text, canon, ok in zip(texts, few, few_ok, strict=True):
+            if text is not None and ok and text.strip().isascii():
+                # Python's int() as the outside reference for what the integer is.
+                assert int(canon) == int(text.strip())
