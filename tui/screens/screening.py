@@ -98,6 +98,7 @@ class ScreeningScreen(Screen):
         self.view: ScreeningData | None = None
         self.page = "overview"
         self._texts: dict[str, str] = {}
+        self._left = False  # set on leaving: a worker finishing later must not paint
 
     def compose(self) -> ComposeResult:
         yield Header()
@@ -126,9 +127,13 @@ class ScreeningScreen(Screen):
         self.app.call_from_thread(self._show, view, page_text(view, "overview"))
 
     def _failed(self, text: str) -> None:
+        if self._left:
+            return
         self.query_one("#screening-state", Static).update(f"could not screen: {text}")
 
     def _show(self, view: ScreeningData, overview: str) -> None:
+        if self._left:
+            return
         self.view = view
         self._texts = {"overview": overview}
         pages = page_ids(view)
@@ -166,7 +171,11 @@ class ScreeningScreen(Screen):
         self.compute()
 
     def action_leave(self) -> None:
+        self._left = True
         self.app.pop_screen()
+
+    def on_unmount(self) -> None:
+        self._left = True
 
     def action_rule(self) -> None:
         if self.view is None:
@@ -211,6 +220,8 @@ class ScreeningScreen(Screen):
         self.app.call_from_thread(self._set_aside_done, rule_name, done, len(who), problem)
 
     def _set_aside_done(self, rule_name: str, done: int, total: int, problem: str) -> None:
+        if self._left:
+            return
         if problem:
             self.notify(f"Stopped after {done} of {total}: {problem}", severity="error",
                         title="set aside")
