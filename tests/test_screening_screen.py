@@ -210,9 +210,18 @@ async def test_an_open_study_is_screened_as_a_draft_and_rules_wait_for_its_open_
     touching = int(still_open["variable"].isin(["age", ""]).sum())
     assert touching, "the demo as keyed has open work touching age"
     app = make_app(study_path)
-    async with app.run_test(size=SIZE) as pilot:
+    async with app.run_test(size=(130, 20)) as pilot:  # short: the overview needs scrolling
         await open_screening(app, pilot)
         assert "Draft:" in page(app) and "open cell(s) left out" in page(app)
+        # Space pages down through a long page and b pages back, like a pager.
+        scroll = app.screen.query_one("#screening-scroll")
+        assert scroll.max_scroll_y > 0 and scroll.scroll_y == 0
+        await pilot.press("space")
+        await pilot.pause()
+        assert scroll.scroll_y > 0
+        await pilot.press("b")
+        await pilot.pause()
+        assert scroll.scroll_y == 0
         await show(app, pilot, "var:age")
         await pilot.press("a")
         await pilot.pause()
@@ -250,3 +259,4 @@ async def test_a_study_with_nothing_keyed_says_so_and_every_page_opens(tmp_path)
         assert "n 0; mean —; SD —" in page(app)  # undefined, not zero
         await show(app, pilot, "var:c")
         assert "yes" in page(app) and "no" in page(app)  # the code labels, with no counts yet
+

@@ -87,8 +87,9 @@ class ScreeningScreen(Screen):
     BINDINGS = [
         Binding("a", "rule", "set aside by rule", id="screening.rule"),
         Binding("u", "recompute", "recompute", id="screening.recompute"),
-        Binding("pagedown", "scroll_page(1)", "page down", show=False),
-        Binding("pageup", "scroll_page(-1)", "page up", show=False),
+        # The menu keeps the arrows and PgUp/PgDn; the page scrolls like a pager.
+        Binding("space", "scroll_page(1)", "scroll page", id="screening.page-down"),
+        Binding("b", "scroll_page(-1)", "scroll back", show=False, id="screening.page-up"),
         Binding("escape", "leave", "home", id="screening.leave"),
     ]
 
