@@ -29,12 +29,13 @@ import zipfile
 from dataclasses import dataclass
 from pathlib import Path
 
+import numpy as np
 import pandas as pd
 
 from .codebook import Codebook
 from .errors import ImportFileError, UsageError
 from .passdata import PassData
-from .values import ISO_DATE
+from .values import BLANK, ISO_DATE, KEYED
 
 CSV_SUFFIXES = (".csv", ".txt", ".tsv")
 XLSX_SUFFIXES = (".xlsx", ".xlsm")
@@ -100,23 +101,24 @@ def read_keyed_file(
     suffix = path.suffix.lower()
     if suffix in XLSX_SUFFIXES:
         header, rows, row_numbers, notes, letters = _read_xlsx(path, codebook)
+        frame = pd.DataFrame(rows, columns=range(len(header)), dtype=object).fillna("")
     elif suffix == ".xls":
         raise ImportFileError(
             f"{path.name}: the old .xls format cannot be read — save it as .xlsx or .csv."
         )
     else:
-        header, rows, row_numbers, notes = _read_csv(path, encoding)
+        header, frame, row_numbers, notes = _read_csv(path, encoding)
         letters = None
-    frame = pd.DataFrame(rows, columns=range(len(header)), dtype=object)
     # Spreadsheets often save a trailing separator: a nameless, empty column.
     unnamed = {i for i, h in enumerate(header)
-               if not h and (frame[i].fillna("").str.strip() == "").all()}
+               if not h and (frame[i].str.strip() == "").all()}
     if unnamed:
         notes.append(f"{path.name}: {len(unnamed)} empty column{'s' if len(unnamed) != 1 else ''}"
                      " without a name ignored.")
     order = _check_columns(path.name, header, codebook, letters, unnamed)
     frame.index = pd.Index(row_numbers, name="row", dtype="int64")
-    texts = frame[order].fillna("")
+    # Every cell is already a str; select columns only when the file's differ (a copy).
+    texts = frame if order == list(range(frame.shape[1])) else frame[order]
     texts.columns = codebook.names
     if [header[i] for i in order] != list(header):
         notes.append(f"{path.name}: the columns are not in paper order; they were read by name.")
@@ -144,7 +146,20 @@ def read_pass_file(
     texts, found = read_keyed_file(path, codebook, encoding)
     if notes is not None:
         notes.extend(found)
-    return PassData.from_texts(pass_no, texts, keyer, label_prefix=f"{Path(path).name} row")
+    # As PassData.from_texts, but the state of all cells at once: the distinct
+    # texts of the whole file are tested for blankness, then taken by code.
+    cells = texts.to_numpy(dtype=object)
+    codes, uniques = pd.factorize(cells.ravel(order="K"))
+    filled = np.fromiter((bool(u.strip()) for u in uniques), bool, len(uniques))
+    keyed = filled[codes].reshape(cells.shape, order="F" if cells.flags.f_contiguous else "C")
+    del codes
+    # Indexing an object array shares the two state strings instead of making one per cell.
+    states = np.array([BLANK, KEYED], dtype=object)[keyed.view(np.int8)]
+    state = pd.DataFrame(states, index=texts.index, columns=texts.columns, dtype=object,
+                         copy=False)
+    keyers = pd.Series(keyer, index=texts.index, dtype="string")
+    labels = (f"{Path(path).name} row " + texts.index.astype(str)).astype("string")
+    return PassData(pass_no, texts, state, keyers, pd.Series(labels, index=texts.index))
 
 
 def import_file(study, path: str | Path, pass_no: int, keyer: str,
@@ -247,6 +262,12 @@ def _read_csv(path: Path, encoding: str | None):
     delimiter = _sniff(first)
     if delimiter != ",":
         notes.append(f"{name}: columns separated by {'tabs' if delimiter == chr(9) else 'semicolons'}.")
+    plain = text.replace("\r\n", "\n") if "\r" in text else text
+    if not any(c in plain for c in '"\r\x00'):
+        # Nothing quoted and one kind of line end: each line is one row, split at the
+        # separator, which the C reader of pandas does many times faster than csv.
+        return _read_plain_csv(name, plain, delimiter, notes)
+    del plain
     reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter)
     try:
         header = [h.strip() for h in next(reader)]
@@ -274,6 +295,11 @@ def _read_csv(path: Path, encoding: str | None):
             f"{name} row {reader.line_num}: the file cannot be read as CSV ({exc}) — "
             "check the quotes on that row."
         ) from None
+    _row_notes(name, short, empty, notes)
+    return header, pd.DataFrame(rows, columns=range(len(header)), dtype=object), numbers, notes
+
+
+def _row_notes(name: str, short: list[int], empty: int, notes: list[str]) -> None:
     if short:
         notes.append(
             f"{name}: {_rows_text(short)} had fewer cells than the header; "
@@ -281,7 +307,49 @@ def _read_csv(path: Path, encoding: str | None):
         )
     if empty:
         notes.append(f"{name}: {empty} empty row{'s' if empty != 1 else ''} skipped.")
-    return header, rows, numbers, notes
+
+
+def _read_plain_csv(name: str, text: str, delimiter: str, notes: list[str]):
+    """``_read_csv`` for a file with no quotes and ``\\n`` line ends: the same rows and notes.
+
+    Lines are checked one by one (a row each: empty, short, too long); the
+    cells are then split by ``pandas.read_csv``'s C reader, which also shares
+    one string object among equal cells of a column (light on memory).
+    """
+    lines = text.split("\n")
+    if lines[-1] == "":
+        lines.pop()  # the line end of the last row, not an empty row
+    # An empty first line is a header of no names, as the csv module reads it.
+    header = [h.strip() for h in lines[0].split(delimiter)] if lines[0] else []
+    width = len(header)
+    kept, numbers, short, empty = [], [], [], 0
+    for number, line in enumerate(lines[1:], start=2):
+        cells = line.count(delimiter) + 1
+        if not line.replace(delimiter, "").strip():
+            empty += 1
+            continue
+        if cells > width:
+            raise ImportFileError(
+                f"{name} row {number}: {cells} cells but the header has {width} "
+                "columns — remove the extra cell, or quote a value that contains "
+                f"the separator {delimiter!r}."
+            )
+        if cells < width:
+            short.append(number)
+        kept.append(line)
+        numbers.append(number)
+    _row_notes(name, short, empty, notes)
+    if not kept:
+        return header, pd.DataFrame(columns=range(width), dtype=object), numbers, notes
+    del lines
+    frame = pd.read_csv(
+        io.StringIO("\n".join(kept)), sep=delimiter, header=None, names=range(width),
+        dtype=object, na_filter=False, keep_default_na=False, skip_blank_lines=False,
+        quoting=csv.QUOTE_NONE, engine="c",
+    )
+    if short:
+        frame = frame.fillna("")  # the cells a short row lacks
+    return header, frame, numbers, notes
 
 
 # --- XLSX --------------------------------------------------------------------------------------

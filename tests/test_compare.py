@@ -305,14 +305,25 @@ def test_run_with_namespace_prints_the_table(tmp_path, capsys):
     assert "1 discrepancies in 2 fields compared" in out.err
 
 
-def test_the_command_reads_a_keyed_file_as_the_importer_does():
+def test_read_pass_file_states_as_passdata_from_texts_gives_them(tmp_path):
+    # The command reads files with read_pass_file, which works out states for the
+    # whole file at once; PassData.from_texts is the contract it must match.
     from core.codebook_io import load_codebook
-    from core.importer import read_pass_file
-    from tui.commands.compare import _read_pass
+    from core.importer import read_keyed_file, read_pass_file
+    from core.passdata import PassData
 
     cb = load_codebook(DEMO / "codebook.csv")
-    ours = _read_pass(str(DEMO / "pass2.csv"), cb, 2, None)
-    theirs = read_pass_file(DEMO / "pass2.csv", cb, 2)
-    pd.testing.assert_frame_equal(ours.text, theirs.text.astype(object))
-    pd.testing.assert_frame_equal(ours.state, theirs.state.astype(object))
-    assert ours.label.tolist() == theirs.label.tolist()
+    spaced = tmp_path / "spaced.csv"
+    lines = (DEMO / "pass2.csv").read_text(encoding="utf-8").splitlines()
+    # Whitespace-only cells are blank on paper, as an empty cell is.
+    lines[1] = ",".join(c if i == 0 else "  " for i, c in enumerate(lines[1].split(",")))
+    spaced.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    for path in (DEMO / "pass2.csv", spaced):
+        ours = read_pass_file(path, cb, 2)
+        texts, _ = read_keyed_file(path, cb)
+        theirs = PassData.from_texts(2, texts, label_prefix=f"{path.name} row")
+        pd.testing.assert_frame_equal(ours.text, theirs.text)
+        pd.testing.assert_frame_equal(ours.state, theirs.state)
+        assert ours.label.tolist() == theirs.label.tolist()
+        assert ours.keyer.tolist() == theirs.keyer.tolist()
+    assert (read_pass_file(spaced, cb, 2).state.iloc[0, 1:] == "blank").all()

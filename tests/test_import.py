@@ -411,3 +411,46 @@ def test_demo_pass_typed_into_a_spreadsheet_reads_as_the_csv(tmp_path):
 
     assert np.array_equal(values(texts), values(expected), equal_nan=True)
     assert notes == []
+
+
+# Files without quotes take a faster line-by-line reader; the csv module is the
+# reference for what any file must read as (Python standard library csv).
+@pytest.mark.parametrize("body", [
+    "id,q1,q2\n1,3,4\n2,,5\n",
+    "id,q1,q2\r\n1,3,4\r\n\r\n2, 5 ,\r\n",
+    "id,q1,q2\n1,3\n,,\n  \n2,1,2",
+    "id;q1;q2\n07;NA;x y\n",
+])
+def test_unquoted_files_read_as_the_csv_module_reads_them(tmp_path, body):
+    import csv as csv_module
+    import io
+
+    path = tmp_path / "p.csv"
+    path.write_bytes(body.encode("utf-8"))
+    texts, _ = read_keyed_file(path, _CB3)
+    delimiter = ";" if ";" in body.split("\n")[0] else ","
+    rows = list(csv_module.reader(io.StringIO(body, newline=""), delimiter=delimiter))[1:]
+    expected = [r + [""] * (3 - len(r)) for r in rows if any(c.strip() for c in r)]
+    assert texts.to_numpy().tolist() == expected
+    assert all(isinstance(v, str) for v in texts.to_numpy().ravel())
+
+
+def test_unquoted_and_quoted_files_give_the_same_rows_and_notes(tmp_path):
+    body = "id,q1,q2\n1,3,4\n\n2,5\n3,1,2,9\n"
+    plain, quoted = tmp_path / "a.csv", tmp_path / "b.csv"
+    plain.write_text(body.replace("3,1,2,9\n", ""), encoding="utf-8")
+    quoted.write_text(body.replace("3,1,2,9\n", "").replace("1,3,4", '"1",3,4'), encoding="utf-8")
+    a, notes_a = read_keyed_file(plain, _CB3)
+    b, notes_b = read_keyed_file(quoted, _CB3)
+    pd.testing.assert_frame_equal(a, b)
+    assert [n.replace("a.csv", "") for n in notes_a] == [n.replace("b.csv", "") for n in notes_b]
+    # Line 5 (header = row 1, the empty line counted) has one cell too many.
+    plain.write_text(body, encoding="utf-8")
+    quoted.write_text(body.replace("1,3,4", '"1",3,4'), encoding="utf-8")
+    for path in (plain, quoted):
+        with pytest.raises(ImportFileError, match=rf"{path.name} row 5: 4 cells"):
+            read_keyed_file(path, _CB3)
+
+
+_CB3 = Codebook((Variable("id", "integer", is_id=True), Variable("q1", "string"),
+                 Variable("q2", "string")))

@@ -94,49 +94,20 @@ def _from_study(path: str):
 def _from_files(file1: str, file2: str, codebook_path: str, encoding: str | None):
     from core.codebook_io import load_codebook
     from core.compare import compare_passes
+    from core.importer import read_pass_file
 
     codebook = load_codebook(codebook_path)
     large = Path(file1).exists() and Path(file1).stat().st_size > 4 * LARGE
     if large:
         _say(f"reading {Path(file1).name} and {Path(file2).name}…")
-    pass1 = _read_pass(file1, codebook, 1, encoding)
-    pass2 = _read_pass(file2, codebook, 2, encoding)
+    notes: list[str] = []
+    pass1 = read_pass_file(file1, codebook, 1, encoding, notes=notes)
+    pass2 = read_pass_file(file2, codebook, 2, encoding, notes=notes)
+    for note in notes:
+        _say(note)
     large = large or pass1.forms * len(codebook) > LARGE
     progress = _progress_printer(f"{pass1.forms:,} and {pass2.forms:,} forms") if large else None
     return compare_passes(codebook, pass1, pass2, progress)
-
-
-def _read_pass(path: str, codebook, pass_no: int, encoding: str | None):
-    """A keyed file as a pass, like ``core.importer.read_pass_file`` but column by column.
-
-    ``PassData.from_texts`` decides each cell's state in a Python call per
-    cell, seconds for a large file; this does the same with one string
-    operation per column. Switch back once ``from_texts`` is vectorised.
-    """
-    import numpy as np
-    import pandas as pd
-
-    from core.importer import read_keyed_file
-    from core.passdata import PassData
-    from core.values import BLANK, KEYED
-
-    texts, notes = read_keyed_file(path, codebook, encoding)
-    for note in notes:
-        _say(note)
-    cells = texts.to_numpy(dtype=object)
-    keyed = np.empty(cells.shape, dtype=bool)
-    for j in range(cells.shape[1]):
-        # A column has few distinct texts: test those for blankness, not every cell.
-        codes, uniques = pd.factorize(cells[:, j])
-        filled = np.array([str(u).strip() != "" for u in uniques] + [False], dtype=bool)
-        keyed[:, j] = filled[codes]
-    text = pd.DataFrame(cells, index=texts.index, columns=texts.columns, dtype=object)
-    # Indexing an object array shares the two state strings instead of making one per cell.
-    states = np.array([BLANK, KEYED], dtype=object)[keyed.astype(np.int8)]
-    state = pd.DataFrame(states, index=texts.index, columns=texts.columns, dtype=object)
-    keyer = pd.Series("", index=text.index, dtype="string")
-    label = (f"{Path(path).name} row " + text.index.astype(str)).astype("string")
-    return PassData(pass_no, text, state, keyer, pd.Series(label, index=text.index))
 
 
 def _write(table, out: Path) -> None:
