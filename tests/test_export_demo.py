@@ -152,17 +152,17 @@ def test_resolved_demo_exports_the_paper_in_every_format(demo, tmp_path, capsys)
     out = capsys.readouterr().out
     assert "60 participants" in out and "initials" in out
     expected = _paper_frame(drop=["initials"])
-    got = pd.read_csv(tmp_path / "v.csv")
+    whole = pd.read_csv(tmp_path / "v.csv")
     # The verified file ends with one computed score per scale (issue 7).
-    assert set(got.columns) - set(expected.columns) == {"belonging", "workdays", "sharing"}
-    got = got[list(expected.columns)]
+    assert set(whole.columns) - set(expected.columns) == {"belonging", "workdays", "sharing"}
+    got = whole[list(expected.columns)]
     pd.testing.assert_frame_equal(got, expected, check_dtype=False)
     who = pd.read_csv(ident)
     assert list(who.columns) == ["member_id", "initials"]
     assert main(["export", str(resolved), "--out", str(tmp_path / "v.xlsx")]) == 0
     from_xlsx = pd.read_excel(tmp_path / "v.xlsx", sheet_name="data")
     from_xlsx["joined"] = from_xlsx["joined"].dt.strftime("%Y-%m-%d")
-    pd.testing.assert_frame_equal(from_xlsx, got, check_dtype=False)
+    pd.testing.assert_frame_equal(from_xlsx, whole, check_dtype=False)
     assert "initials" not in next(openpyxl.load_workbook(tmp_path / "v.xlsx", read_only=True)
                                   ["data"].iter_rows(values_only=True))
     assert main(["export", str(resolved), "--out", str(tmp_path / "pkg")]) == 0
