@@ -20,7 +20,7 @@ from .errors import (
     StoreError,
     UsageError,
 )
-from .export import ExportResult, export
+from .export import ExportResult  # not `export`: it would hide the core.export module
 from .importer import ImportResult, import_file, read_keyed_file, read_pass_file
 from .journal import AuditResult
 from .passdata import PassData
@@ -60,7 +60,6 @@ __all__ = [
     "compare_passes",
     "compare_study",
     "diff_codebooks",
-    "export",
     "import_file",
     "load_codebook",
     "make_demo_study",
