@@ -328,14 +328,12 @@ class _Side:
     missing: np.ndarray  # a declared missing code
 
 
-def _pair_codes(col1: pd.Series, col2: pd.Series, pos1: np.ndarray, pos2: np.ndarray):
-    """Codes of the paired rows of one column in both passes (-1 = no text), and the texts.
+def _pair_codes(a: np.ndarray, b: np.ndarray):
+    """Codes of the cells of two aligned 1-D object arrays (-1 = no text), and the texts.
 
     Most cells of two passes are equal, so only pass 1 is hashed in full;
     pass 2 borrows its codes and hashes just the cells that differ.
     """
-    a = col1.to_numpy(dtype=object)[pos1]
-    b = col2.to_numpy(dtype=object)[pos2]
     codes_a, uniques = pd.factorize(a)
     uniques = np.asarray(uniques, dtype=object)
     try:
@@ -363,27 +361,62 @@ def _positions(reference: np.ndarray, values: np.ndarray, index: pd.Index | None
     return np.array([where.get(v, -1) for v in values.tolist()], dtype=np.intp)
 
 
+#: Columns of one group factorised together.
+_CHUNK = 16
+
+
+def _grid(frame: pd.DataFrame, rows: np.ndarray, cols: list[int]) -> np.ndarray:
+    """The listed rows and columns of a frame as one column-major 2-D object array."""
+    out = np.empty((len(rows), len(cols)), dtype=object, order="F")
+    every = len(rows) == len(frame) and bool((rows == np.arange(len(rows))).all())
+    for i, j in enumerate(cols):
+        column = frame.iloc[:, j].to_numpy(dtype=object)
+        out[:, i] = column if every else column[rows]
+    return out
+
+
+def _state_grid(state: pd.DataFrame, rows: np.ndarray) -> np.ndarray:
+    """State codes of the listed rows (all columns), column-major."""
+    cells = state.to_numpy(dtype=object)
+    if not (len(rows) == len(state) and bool((rows == np.arange(len(rows))).all())):
+        cells = cells[rows]
+    out = np.full(cells.shape, _N, dtype=np.int8, order="F")
+    try:
+        # Comparing with the few state words beats hashing every cell; most cells
+        # are keyed, so the other words are looked for among the rest only.
+        keyed = np.asarray(cells == KEYED, dtype=bool)
+        out[keyed] = _K
+        r, c = np.nonzero(~keyed)
+        if len(r):
+            others = cells[r, c]
+            for word, code in ((BLANK, _B), (ILLEGIBLE, _I)):
+                at = np.asarray(others == word, dtype=bool)
+                out[r[at], c[at]] = code
+    except (TypeError, ValueError):  # a state like pd.NA has no truth value: hash instead
+        codes, uniques = pd.factorize(cells.ravel())
+        lookup = np.array([{KEYED: _K, BLANK: _B, ILLEGIBLE: _I}.get(u, _N) for u in uniques]
+                          + [_N], dtype=np.int8)
+        out[:] = lookup[codes].reshape(cells.shape)
+    return out
+
+
 def _sides(codebook: Codebook, p1: PassData, p2: PassData, forms1, forms2, progress):
     """Both passes as arrays; plus, per column, its distinct texts and their canonical forms.
 
-    Each column is factorised on its own (no copy of the frame; pass 2 only
-    where it differs from pass 1); the value rules then run once per group of
-    variables with the same rules, on the group's distinct texts only.
+    The cells of each group of variables with the same rules are factorised
+    together (pass 2 only where it differs from pass 1), so the value rules
+    run once per group, on the group's distinct texts only, and the Python
+    work is per group, not per column.
     """
     names = codebook.names
     n, m = len(forms1), len(names)
-    passes = ((p1, p1.text.index.get_indexer(forms1)), (p2, p2.text.index.get_indexer(forms2)))
-    # Column-major, since they are filled one variable (column) at a time.
+    pos1, pos2 = p1.text.index.get_indexer(forms1), p2.text.index.get_indexer(forms2)
+    # Column-major, since they are filled one group of columns at a time.
     sides = [_Side(*(np.empty((n, m), dtype, order="F")
                      for dtype in (np.int8, np.int32, np.int32, bool, np.int8, bool)))
-             for _ in passes]
-    state_code = {KEYED: _K, BLANK: _B, ILLEGIBLE: _I}
-    (_, pos1), (_, pos2) = passes
-    for j, name in enumerate(names):
-        codes_a, codes_b, uniques = _pair_codes(p1.state[name], p2.state[name], pos1, pos2)
-        lookup = np.array([state_code.get(u, _N) for u in uniques] + [_N], dtype=np.int8)
-        sides[0].state[:, j] = lookup[codes_a]
-        sides[1].state[:, j] = lookup[codes_b]
+             for _ in range(2)]
+    sides[0].state[:] = _state_grid(p1.state, pos1)
+    sides[1].state[:] = _state_grid(p2.state, pos2)
     groups: dict[tuple, list[int]] = {}
     for j, var in enumerate(codebook.variables):
         groups.setdefault(_signature(var), []).append(j)
@@ -392,9 +425,19 @@ def _sides(codebook: Codebook, p1: PassData, p2: PassData, forms1, forms2, progr
     global_ids: dict[str, int] = {}
     for done, cols in enumerate(groups.values(), start=1):
         var = codebook.variables[cols[0]]
-        parts = {j: _pair_codes(p1.text[names[j]], p2.text[names[j]], pos1, pos2) for j in cols}
-        uniques = pd.unique(np.concatenate([u for *_, u in parts.values()]
-                                           + [np.array([], object)]))
+        # A few columns at a time keeps the copies small; codes wait in ``ucode``
+        # until the group's distinct texts are known, then become group codes.
+        parts = []
+        for start in range(0, len(cols), _CHUNK):
+            chunk = cols[start:start + _CHUNK]
+            codes_a, codes_b, chunk_uniques = _pair_codes(
+                _grid(p1.text, pos1, chunk).ravel(order="F"),
+                _grid(p2.text, pos2, chunk).ravel(order="F"))
+            sides[0].ucode[:, chunk] = codes_a.reshape((n, len(chunk)), order="F")
+            sides[1].ucode[:, chunk] = codes_b.reshape((n, len(chunk)), order="F")
+            parts.append((chunk, chunk_uniques))
+        uniques = parts[0][1] if len(parts) == 1 else \
+            pd.unique(np.concatenate([u for _, u in parts])).astype(object)
         index = pd.Index(uniques, dtype=object)
         canon, valid = canonical_series(var, pd.Series(uniques, dtype=object))
         problem = rule_problems(var, canon, valid).map(_PROBLEM_CODE).to_numpy(dtype=np.int8)
@@ -404,23 +447,26 @@ def _sides(codebook: Codebook, p1: PassData, p2: PassData, forms1, forms2, progr
                                                                dtype=object))
             missing = (canon.isin(set(codes_missing)) & valid).to_numpy(dtype=bool)
         canon_arr = canon.to_numpy(dtype=object)
+        # Index -1 (no text at all) picks the appended last element.
         gid = np.array([global_ids.setdefault(c, len(global_ids)) for c in canon_arr] + [-1],
                        dtype=np.int32)
         valid_ext = np.append(valid.to_numpy(dtype=bool), True)
         problem_ext = np.append(problem, 0).astype(np.int8)
         missing_ext = np.append(missing, False)
+        for chunk, chunk_uniques in parts:
+            remap = None if len(parts) == 1 else \
+                np.append(_positions(uniques, chunk_uniques, index), -1).astype(np.int32)
+            for side in sides:
+                c = side.ucode[:, chunk]
+                if remap is not None:
+                    c = remap[c]
+                    side.ucode[:, chunk] = c
+                side.gid[:, chunk] = gid[c]
+                side.valid[:, chunk] = valid_ext[c]
+                side.problem[:, chunk] = problem_ext[c]
+                side.missing[:, chunk] = missing_ext[c]
         texts_ext = np.append(uniques.astype(object), None)
         canon_ext = np.append(canon_arr, None)
-        for j, (codes_a, codes_b, col_uniques) in parts.items():
-            # Index -1 (no text at all) picks the appended last element.
-            remap = np.append(_positions(uniques, col_uniques, index), -1)
-            for side, codes in ((sides[0], codes_a), (sides[1], codes_b)):
-                c = remap[codes]
-                side.ucode[:, j] = c
-                side.gid[:, j] = gid[c]
-                side.valid[:, j] = valid_ext[c]
-                side.problem[:, j] = problem_ext[c]
-                side.missing[:, j] = missing_ext[c]
         for j in cols:
             texts_of[j] = texts_ext
             canon_of[j] = canon_ext

@@ -146,13 +146,17 @@ def read_pass_file(
     texts, found = read_keyed_file(path, codebook, encoding)
     if notes is not None:
         notes.extend(found)
-    # As PassData.from_texts, but the state of all cells at once: the distinct
-    # texts of the whole file are tested for blankness, then taken by code.
-    cells = texts.to_numpy(dtype=object)
-    codes, uniques = pd.factorize(cells.ravel(order="K"))
-    filled = np.fromiter((bool(u.strip()) for u in uniques), bool, len(uniques))
-    keyed = filled[codes].reshape(cells.shape, order="F" if cells.flags.f_contiguous else "C")
-    del codes
+    # As PassData.from_texts, but a few columns at a time: their distinct texts
+    # are tested for blankness, then taken by code (few Python calls, small copies).
+    n, m = texts.shape
+    keyed = np.empty((n, m), dtype=bool, order="F")
+    for start in range(0, m, _BATCH):
+        stop = min(start + _BATCH, m)
+        cells = np.concatenate([texts.iloc[:, j].to_numpy(dtype=object)
+                                for j in range(start, stop)] + [np.empty(0, object)])
+        codes, uniques = pd.factorize(cells)
+        filled = np.fromiter((bool(u.strip()) for u in uniques), bool, len(uniques))
+        keyed[:, start:stop] = filled[codes].reshape((n, stop - start), order="F")
     # Indexing an object array shares the two state strings instead of making one per cell.
     states = np.array([BLANK, KEYED], dtype=object)[keyed.view(np.int8)]
     state = pd.DataFrame(states, index=texts.index, columns=texts.columns, dtype=object,
@@ -160,6 +164,10 @@ def read_pass_file(
     keyers = pd.Series(keyer, index=texts.index, dtype="string")
     labels = (f"{Path(path).name} row " + texts.index.astype(str)).astype("string")
     return PassData(pass_no, texts, state, keyers, pd.Series(labels, index=texts.index))
+
+
+#: Columns whose states ``read_pass_file`` works out together.
+_BATCH = 16
 
 
 def import_file(study, path: str | Path, pass_no: int, keyer: str,
@@ -342,8 +350,9 @@ def _read_plain_csv(name: str, text: str, delimiter: str, notes: list[str]):
     if not kept:
         return header, pd.DataFrame(columns=range(width), dtype=object), numbers, notes
     del lines
+    # UTF-8 bytes: a StringIO of the text would hold four bytes a character.
     frame = pd.read_csv(
-        io.StringIO("\n".join(kept)), sep=delimiter, header=None, names=range(width),
+        io.BytesIO("\n".join(kept).encode("utf-8")), sep=delimiter, encoding="utf-8", header=None, names=range(width),
         dtype=object, na_filter=False, keep_default_na=False, skip_blank_lines=False,
         quoting=csv.QUOTE_NONE, engine="c",
     )
