@@ -1,4 +1,4 @@
-"""The demo study resolved with its paper truth, for the app's screening and export tests.
+"""The demo study resolved with its paper truth, for the resolution, screening and export tests.
 
 The paper (fixtures/demo/paper.csv, written by fixtures/make_demo.py with the
 keyed passes) is the outside record: every discrepancy is settled the way a
@@ -12,7 +12,7 @@ from pathlib import Path
 
 import pandas as pd
 
-from core.demo import make_demo_study
+from core.demo import KEYERS, make_demo_study
 from core.resolution import (
     FORM_KINDS,
     confirm_one_pass,
@@ -40,28 +40,39 @@ def paper() -> pd.DataFrame:
 def resolved_demo(folder: Path) -> Path:
     """Build the demo study in ``folder`` and settle it with the paper; returns its path."""
     path = make_demo_study(folder)
-    truth = paper()
     with Study.open(path) as study:
-        for _round in range(20):
-            rows = worklist(study)
-            pending = rows[rows["_status"] != "settled"]
-            if pending.empty:
-                return path
-            forms = pending[pending["kind"].isin(FORM_KINDS)]
-            if len(forms):
-                _settle_form(study, forms.iloc[0], truth)
-                continue
-            shifted = set()
-            for _, row in pending.iterrows():
-                p, var = row["participant"], row["variable"]
-                if row["cause"] == "field_shift":
-                    if p not in shifted:
-                        right = 1 if row["pass1"] == truth.loc[p, var] else 2
-                        settle_shift(study, p, right, f"checked against paper: pass {right} right",
-                                     RESOLVER, rows=rows)
-                        shifted.add(p)
-                else:
-                    _settle_cell(study, row, truth.loc[p, var])
+        settle_with_paper(study)
+    return path
+
+
+def settle_with_paper(study: Study, truth: pd.DataFrame | None = None) -> pd.DataFrame:
+    """Settle every discrepancy of an open study with the paper; returns the settled worklist.
+
+    Form-level rows go one at a time (pairing or keying a form changes the
+    comparison), then every open cell of one worklist.
+    """
+    truth = paper() if truth is None else truth
+    for _round in range(20):
+        rows = worklist(study)
+        pending = rows[rows["_status"] != "settled"]
+        if pending.empty:
+            return rows
+        forms = pending[pending["kind"].isin(FORM_KINDS)]
+        if len(forms):
+            assert forms.iloc[0]["kind"] != "duplicate_id", "the demo has no duplicated ID"
+            _settle_form(study, forms.iloc[0], truth)
+            continue
+        shifted = set()
+        for _, row in pending.iterrows():
+            p, var = row["participant"], row["variable"]
+            if row["cause"] == "field_shift":
+                if p not in shifted:
+                    right = 1 if row["pass1"] == truth.loc[p, var] else 2
+                    settle_shift(study, p, right, f"checked against paper: pass {right} right",
+                                 RESOLVER, rows=rows)
+                    shifted.add(p)
+            else:
+                _settle_cell(study, row, truth.loc[p, var])
     raise AssertionError("the demo study did not settle in twenty rounds")
 
 
@@ -84,11 +95,12 @@ def _settle_form(study, row, truth) -> None:
             return
     # A real paper the other pass never keyed: confirm, then key it from the paper.
     confirm_one_pass(study, row, "paper found, not keyed in the other pass", RESOLVER)
-    form = study.start_form(3 - here, "JM")
-    study.set_value(form, id_name, row["participant"], "keyed", "JM")
+    keyer = KEYERS[3 - here]  # the keyer of the pass that missed it
+    form = study.start_form(3 - here, keyer)
+    study.set_value(form, id_name, row["participant"], "keyed", keyer)
     for name, text in truth.loc[row["participant"]].items():
-        study.set_value(form, name, text, "keyed" if text else "blank", "JM")
-    study.finish_form(form, "JM")
+        study.set_value(form, name, text, "keyed" if text else "blank", keyer)
+    study.finish_form(form, keyer)
 
 
 def _settle_cell(study, row, truth: str) -> None:

@@ -9,103 +9,17 @@ paper, and the report's error attribution must find exactly the planted slips.
 from __future__ import annotations
 
 import json
-from pathlib import Path
 
 import openpyxl
 import pandas as pd
 import pytest
+from demo_resolved import FIXTURES, resolved_demo
 from frictionless import validate
 
 from core.demo import KEYERS, make_demo_study
 from core.report import build_report
-from core.resolution import (
-    FORM_KINDS,
-    confirm_one_pass,
-    mark_blank,
-    pair_forms,
-    set_missing_code,
-    set_paper_value,
-    settle_shift,
-    take_pass,
-    worklist,
-)
 from core.store import Study
-from core.values import parse
 from tui.cli import main
-
-FIXTURES = Path(__file__).resolve().parents[1] / "fixtures" / "demo"
-RESOLVER = "LM"
-
-
-def _paper() -> pd.DataFrame:
-    return pd.read_csv(FIXTURES / "paper.csv", dtype=str, keep_default_na=False).set_index(
-        "member_id")
-
-
-def _settle_form(study, row, paper) -> None:
-    here = 1 if row["kind"] == "only_in_pass1" else 2
-    other = 3 - here
-    reason = "form number mistyped in one pass"
-    if row["participant"] not in paper.index:  # this side's ID is the mistyped one
-        pair_forms(study, row, other, reason, RESOLVER)
-        return
-    partner = row.get("_partner")
-    if partner is not None and not pd.isna(partner):
-        partner_id = study.form(int(partner)).texts[study.codebook.id_variable.name]
-        if partner_id not in paper.index:
-            pair_forms(study, row, here, reason, RESOLVER)
-            return
-    # A real paper the other pass never keyed: confirm, then key it from the paper.
-    confirm_one_pass(study, row, "paper found, not keyed in the other pass", RESOLVER)
-    keyer = KEYERS[other]
-    form = study.start_form(other, keyer)
-    id_name = study.codebook.id_variable.name
-    study.set_value(form, id_name, row["participant"], "keyed", keyer)
-    for name, text in paper.loc[row["participant"]].items():
-        study.set_value(form, name, text, "keyed" if text else "blank", keyer)
-    study.finish_form(form, keyer)
-
-
-def _settle_cell(study, row, truth: str) -> None:
-    var = study.codebook[row["variable"]]
-    keep = bool(truth) and not parse(var, truth).ok
-    if truth == "":
-        mark_blank(study, row, "paper blank", RESOLVER)
-    elif truth in var.missing_values:
-        set_missing_code(study, row, truth, "paper blank", RESOLVER)
-    elif row["pass1"] == truth:
-        take_pass(study, row, 1, "checked against paper: pass 1 right", RESOLVER, keep=keep)
-    elif row["pass2"] == truth:
-        take_pass(study, row, 2, "checked against paper: pass 2 right", RESOLVER, keep=keep)
-    else:
-        set_paper_value(study, row, truth, "checked against paper: both wrong", RESOLVER,
-                        keep=keep)
-
-
-def _resolve_with_paper(study, paper) -> None:
-    """Settle everything the way a resolver holding the paper would, a form at a time."""
-    for _round in range(20):
-        rows = worklist(study)
-        pending = rows[rows["_status"] != "settled"]
-        if pending.empty:
-            return
-        forms = pending[pending["kind"].isin(FORM_KINDS)]
-        if len(forms):
-            _settle_form(study, forms.iloc[0], paper)
-            continue
-        shifted = set()
-        for _, row in pending.iterrows():
-            p, var = row["participant"], row["variable"]
-            truth = paper.loc[p, var]
-            if row["cause"] == "field_shift":
-                if p not in shifted:
-                    right = 1 if row["pass1"] == truth else 2
-                    settle_shift(study, p, right, f"checked against paper: pass {right} right",
-                                 RESOLVER, rows=rows)
-                    shifted.add(p)
-            else:
-                _settle_cell(study, row, truth)
-    raise AssertionError("the demo study did not settle in twenty rounds")
 
 
 @pytest.fixture(scope="module")
@@ -113,10 +27,8 @@ def demo(tmp_path_factory):
     """Two copies of the demo study: as keyed (open) and resolved with its paper."""
     folder = tmp_path_factory.mktemp("demo")
     open_study = make_demo_study(folder / "open")
-    resolved = make_demo_study(folder / "resolved")
-    with Study.open(resolved) as study:
-        _resolve_with_paper(study, _paper())
-    return open_study, resolved
+    # Settled the way a resolver holding the paper would (tests/demo_resolved.py).
+    return open_study, resolved_demo(folder / "resolved")
 
 
 def test_export_refuses_while_anything_is_open(demo, tmp_path, capsys):

@@ -3,10 +3,10 @@
 from __future__ import annotations
 
 import json
-from pathlib import Path
 
 import pandas as pd
 import pytest
+from demo_resolved import FIXTURES, settle_with_paper
 
 from core.codebook import Code, Codebook, Variable
 from core.errors import DecisionError, OpenWorkError
@@ -39,7 +39,6 @@ from core.resolution import (
     worklist,
 )
 from core.store import Study
-from core.values import parse
 
 CODEBOOK = Codebook(
     (
@@ -371,86 +370,6 @@ def _settle_all(study):
 # ------------------------------------------------------------------ end to end: the demo study
 
 
-FIXTURES = Path(__file__).resolve().parents[1] / "fixtures" / "demo"
-
-
-def _paper():
-    """The demo's paper truth as text (fixtures/demo/paper.csv, written by fixtures/make_demo.py)."""
-    return pd.read_csv(FIXTURES / "paper.csv", dtype=str, keep_default_na=False).set_index("member_id")
-
-
-def _resolve_with_paper(study, paper):
-    """Work off every discrepancy the way a resolver holding the paper would.
-
-    Form-level rows one at a time (pairing or keying a form changes the
-    comparison), then every open cell of one worklist.
-    """
-    for _round in range(10):
-        rows = worklist(study)
-        pending = rows[rows["_status"] != "settled"]
-        if pending.empty:
-            return rows
-        forms = pending[pending["variable"] == ""]
-        if len(forms):
-            assert forms.iloc[0]["kind"] != "duplicate_id", "the demo has no duplicated ID"
-            _settle_form(study, forms.iloc[0], paper)
-            continue
-        shifted = set()
-        for _, row in pending.iterrows():
-            p, var = row["participant"], row["variable"]
-            truth = paper.loc[p, var]
-            if row["cause"] == "field_shift":
-                if p not in shifted:
-                    right = 1 if row["pass1"] == truth else 2
-                    settle_shift(study, p, right, f"checked against paper: pass {right} right",
-                                 "LM", rows=rows)  # fmt: skip
-                    shifted.add(p)
-            else:
-                _settle_cell(study, row, truth)
-    raise AssertionError("the demo study did not settle in ten rounds")
-
-
-def _settle_form(study, row, paper):
-    here = 1 if row["kind"] == "only_in_pass1" else 2
-    other = 3 - here
-    if row["participant"] not in paper.index:
-        # The mistyped ID: pair it from the other side, whose ID is on the paper.
-        partner = row["_partner"]
-        pair_forms(study, row, other, "form number mistyped in one pass", "LM")
-        assert study.form(int(partner)).texts  # the partner form is still there
-        return
-    partner = row.get("_partner")
-    if partner is not None and not pd.isna(partner):
-        partner_id = study.form(int(partner)).texts[study.codebook.id_variable.name]
-        if partner_id not in paper.index:
-            pair_forms(study, row, here, "form number mistyped in one pass", "LM")
-            return
-    # A real form the other pass never keyed: confirm it, then key it from the paper.
-    confirm_one_pass(study, row, "paper found, not keyed in the other pass", "LM")
-    form = study.start_form(other, "JM")
-    truth = paper.loc[row["participant"]]
-    study.set_value(form, study.codebook.id_variable.name, row["participant"], "keyed", "JM")
-    for name, text in truth.items():
-        study.set_value(form, name, text, "keyed" if text else "blank", "JM")
-    study.finish_form(form, "JM")
-
-
-def _settle_cell(study, row, truth):
-    var = study.codebook[row["variable"]]
-    keep = bool(truth) and not parse(var, truth).ok
-    if truth == "":
-        mark_blank(study, row, "paper blank", "LM")
-    elif truth in var.missing_values:
-        set_missing_code(study, row, truth, "paper blank", "LM")
-    elif keep:
-        take_pass(study, row, 1 if row["pass1"] == truth else 2, "paper value outside the rule, kept", "LM", keep=True)
-    elif row["pass1"] == truth:
-        take_pass(study, row, 1, "checked against paper: pass 1 right", "LM", keep=keep)
-    elif row["pass2"] == truth:
-        take_pass(study, row, 2, "checked against paper: pass 2 right", "LM", keep=keep)
-    else:
-        set_paper_value(study, row, truth, "checked against paper: both wrong", "LM", keep=keep)
-
 
 def _paper_typed_by_pandas(codebook):
     """The paper truth typed by pandas' own parsers (the reference), in ID order."""
@@ -474,11 +393,10 @@ def test_the_demo_study_resolved_with_its_paper_equals_the_paper(tmp_path):
     from core.demo import make_demo_study
 
     path = make_demo_study(tmp_path)
-    paper = _paper()
     with Study.open(path) as study:
         with pytest.raises(OpenWorkError):
             verified_table(study)
-        rows = _resolve_with_paper(study, paper)
+        rows = settle_with_paper(study)  # the resolver holding the paper (tests/demo_resolved.py)
         verified = verified_table(study, rows=rows)
         kept = verified.kept
         journal = study.journal()
