@@ -11,7 +11,6 @@ from __future__ import annotations
 import argparse
 import importlib
 import sys
-from importlib.metadata import PackageNotFoundError, version
 
 # name -> (module under tui.commands, one-line help). Order is the order shown.
 COMMANDS: dict[str, tuple[str, str]] = {
@@ -34,10 +33,24 @@ COMMANDS: dict[str, tuple[str, str]] = {
 
 
 def package_version() -> str:
+    # importlib.metadata costs a noticeable part of `keyproof --help`: load it only here.
+    from importlib.metadata import PackageNotFoundError, version
+
     try:
         return version("keyproof")
     except PackageNotFoundError:  # running from a source tree that is not installed
         return "0+unknown"
+
+
+class _VersionAction(argparse.Action):
+    """--version, looked up only when asked for."""
+
+    def __init__(self, option_strings, dest=argparse.SUPPRESS, **kwargs):
+        super().__init__(option_strings, dest, nargs=0, help="show the version and exit")
+
+    def __call__(self, parser, namespace, values, option_string=None):
+        sys.stdout.write(f"keyproof {package_version()}\n")
+        parser.exit()
 
 
 class _Parser(argparse.ArgumentParser):
@@ -62,7 +75,7 @@ def build_parser() -> argparse.ArgumentParser:
         description="Double entry of paper questionnaires: key twice, compare, "
         "resolve against the paper, export a verified file.",
     )
-    parser.add_argument("--version", action="version", version=f"keyproof {package_version()}")
+    parser.add_argument("--version", action=_VersionAction)
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
     for name, (_module, text) in _available().items():
         sub.add_parser(name, help=text, description=text[0].upper() + text[1:] + ".", add_help=False)
