@@ -9,7 +9,6 @@ what is open is counted by ``core.resolution`` through its own connection.
 from __future__ import annotations
 
 import asyncio
-import functools
 import importlib
 import threading
 
@@ -17,6 +16,7 @@ import pandas as pd
 import pytest
 from demo_resolved import FIXTURES, copy_study, resolved_demo
 from frictionless import validate
+from pilot_helpers import settle, sync
 
 from core.demo import make_demo_study
 from core.resolution import counts_by_kind, open_rows, worklist
@@ -31,22 +31,9 @@ SIZE = (120, 40)
 EXPORT_MODULE = importlib.import_module("core.export")
 
 
-def sync(fn):
-    """Run an async Pilot test without an async pytest plugin."""
-    @functools.wraps(fn)
-    def wrapper(*args, **kwargs):
-        asyncio.run(fn(*args, **kwargs))
-    return wrapper
-
-
 @pytest.fixture(scope="module")
 def resolved(tmp_path_factory):
     return resolved_demo(tmp_path_factory.mktemp("export") / "demo")
-
-
-async def settle(app, pilot):
-    await app.workers.wait_for_complete()
-    await pilot.pause()
 
 
 async def open_dialog(app, pilot, key: str, kind):

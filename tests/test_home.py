@@ -7,10 +7,9 @@ from what the screen computed.
 from __future__ import annotations
 
 import argparse
-import asyncio
-import functools
 
 import pandas as pd
+from pilot_helpers import sync
 
 from core.codebook import Codebook, Variable
 from core.store import Study
@@ -27,14 +26,6 @@ CB = Codebook((
     Variable("q2", "integer", min=1, max=5),
 ))  # fmt: skip
 SIZE = (110, 34)
-
-
-def sync(fn):
-    """Run an async Pilot test without an async pytest plugin."""
-    @functools.wraps(fn)
-    def wrapper(*args, **kwargs):
-        asyncio.run(fn(*args, **kwargs))
-    return wrapper
 
 
 def make_study(tmp_path) -> str:

@@ -7,13 +7,12 @@ produced. Small forms keep Pilot (about 40 ms per key) quick.
 
 from __future__ import annotations
 
-import asyncio
-import functools
 import re
 from pathlib import Path
 
 import pandas as pd
 import pytest
+from pilot_helpers import sync
 from textual import events
 
 from core.codebook import Code, Codebook, Variable
@@ -43,14 +42,6 @@ DEMO_LIKE = Codebook((
 ))  # fmt: skip
 
 SIZE = (110, 34)
-
-
-def sync(fn):
-    """Run an async Pilot test without an async pytest plugin."""
-    @functools.wraps(fn)
-    def wrapper(*args, **kwargs):
-        asyncio.run(fn(*args, **kwargs))
-    return wrapper
 
 
 def make_study(tmp_path, codebook=DEMO_LIKE, auto_advance=False) -> str:

@@ -8,11 +8,11 @@ through its own connection after the screen is done.
 
 from __future__ import annotations
 
-import asyncio
-import functools
 from pathlib import Path
 
 import pandas as pd
+from demo_resolved import paper
+from pilot_helpers import settle, sync, type_text
 
 from core.codebook import Code, Codebook, Variable
 from core.demo import make_demo_study
@@ -26,32 +26,6 @@ from tui.screens.setaside_view import SetAsideDialog, SetAsideView
 from tui.widgets.discrepancy_detail import detail_text
 
 SIZE = (120, 44)
-FIXTURES = Path(__file__).resolve().parents[1] / "fixtures" / "demo"
-
-
-def sync(fn):
-    """Run an async Pilot test without an async pytest plugin."""
-    @functools.wraps(fn)
-    def wrapper(*args, **kwargs):
-        asyncio.run(fn(*args, **kwargs))
-    return wrapper
-
-
-async def settle(app, pilot):
-    await app.workers.wait_for_complete()
-    await pilot.pause()
-
-
-async def type_text(pilot, text: str):
-    for ch in text:
-        await pilot.press({" ": "space", ".": "full_stop", "-": "minus", ",": "comma",
-                           ":": "colon"}.get(ch, ch))
-
-
-def paper():
-    return pd.read_csv(FIXTURES / "paper.csv", dtype=str, keep_default_na=False).set_index("member_id")
-
-
 # ------------------------------------------------------------------ the demo, settled by keys
 
 

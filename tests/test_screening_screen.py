@@ -8,8 +8,6 @@ through its own connection after the app is done.
 
 from __future__ import annotations
 
-import asyncio
-import functools
 import re
 
 import numpy as np
@@ -17,6 +15,7 @@ import pandas as pd
 import pingouin as pg
 import pytest
 from demo_resolved import copy_study, paper, resolved_demo
+from pilot_helpers import settle, sync, type_text
 from scipy import stats
 
 from core.screening import screen
@@ -28,14 +27,6 @@ from tui.screens.screening import ScreeningScreen
 SIZE = (130, 44)
 
 
-def sync(fn):
-    """Run an async Pilot test without an async pytest plugin."""
-    @functools.wraps(fn)
-    def wrapper(*args, **kwargs):
-        asyncio.run(fn(*args, **kwargs))
-    return wrapper
-
-
 @pytest.fixture(scope="module")
 def resolved(tmp_path_factory):
     return resolved_demo(tmp_path_factory.mktemp("screening") / "demo")
@@ -44,17 +35,6 @@ def resolved(tmp_path_factory):
 @pytest.fixture
 def study_path(resolved, tmp_path):
     return copy_study(resolved, tmp_path / "study")
-
-
-async def settle(app, pilot):
-    await app.workers.wait_for_complete()
-    await pilot.pause()
-
-
-async def type_text(pilot, text: str):
-    names = {" ": "space", ".": "full_stop", "-": "minus", ":": "colon", ",": "comma"}
-    for ch in text:
-        await pilot.press(names.get(ch, ch))
 
 
 def page(app) -> str:
