@@ -375,8 +375,46 @@ def _grid(frame: pd.DataFrame, rows: np.ndarray, cols: list[int]) -> np.ndarray:
     return out
 
 
+def _categorical(columns: list[pd.Series]) -> bool:
+    return all(isinstance(c.dtype, pd.CategoricalDtype) for c in columns)
+
+
+def _pair_chunk(t1: pd.DataFrame, t2: pd.DataFrame, pos1, pos2, chunk: list[int]):
+    """Codes of a few columns of both passes (-1 = no text), column-major, and their texts.
+
+    Categorical columns (keyed files) already hold codes: only their few
+    categories are matched up, no cell is hashed. Other columns are factorised.
+    """
+    cols1 = [t1.iloc[:, j] for j in chunk]
+    cols2 = [t2.iloc[:, j] for j in chunk]
+    shape = (len(pos1), len(chunk))
+    if not _categorical(cols1 + cols2):
+        codes_a, codes_b, uniques = _pair_codes(_grid(t1, pos1, chunk).ravel(order="F"),
+                                                _grid(t2, pos2, chunk).ravel(order="F"))
+        return (codes_a.reshape(shape, order="F"), codes_b.reshape(shape, order="F"), uniques)
+    # One factorisation of all the columns' categories numbers them for the chunk.
+    cats = [c.cat.categories.to_numpy(dtype=object) for c in cols1 + cols2]
+    numbered, uniques = pd.factorize(np.concatenate(cats + [np.empty(0, object)]))
+    ends = np.cumsum([len(c) for c in cats])
+    out = [np.empty(shape, dtype=np.int32, order="F") for _ in range(2)]
+    for k, col in enumerate(cols1 + cols2):
+        # Code -1 (no text) picks the appended -1.
+        remap = np.append(numbered[ends[k] - len(cats[k]):ends[k]], -1).astype(np.int32)
+        side, i = divmod(k, len(chunk))
+        out[side][:, i] = remap[col.cat.codes.to_numpy()[pos2 if side else pos1]]
+    return out[0], out[1], np.asarray(uniques, dtype=object)
+
+
 def _state_grid(state: pd.DataFrame, rows: np.ndarray) -> np.ndarray:
     """State codes of the listed rows (all columns), column-major."""
+    columns = [state.iloc[:, j] for j in range(state.shape[1])]
+    if _categorical(columns):
+        out = np.empty((len(rows), len(columns)), dtype=np.int8, order="F")
+        words = {KEYED: _K, BLANK: _B, ILLEGIBLE: _I}
+        for j, col in enumerate(columns):
+            lookup = np.array([words.get(w, _N) for w in col.cat.categories] + [_N], np.int8)
+            out[:, j] = lookup[col.cat.codes.to_numpy()[rows]]
+        return out
     cells = state.to_numpy(dtype=object)
     if not (len(rows) == len(state) and bool((rows == np.arange(len(rows))).all())):
         cells = cells[rows]
@@ -430,11 +468,9 @@ def _sides(codebook: Codebook, p1: PassData, p2: PassData, forms1, forms2, progr
         parts = []
         for start in range(0, len(cols), _CHUNK):
             chunk = cols[start:start + _CHUNK]
-            codes_a, codes_b, chunk_uniques = _pair_codes(
-                _grid(p1.text, pos1, chunk).ravel(order="F"),
-                _grid(p2.text, pos2, chunk).ravel(order="F"))
-            sides[0].ucode[:, chunk] = codes_a.reshape((n, len(chunk)), order="F")
-            sides[1].ucode[:, chunk] = codes_b.reshape((n, len(chunk)), order="F")
+            codes_a, codes_b, chunk_uniques = _pair_chunk(p1.text, p2.text, pos1, pos2, chunk)
+            sides[0].ucode[:, chunk] = codes_a
+            sides[1].ucode[:, chunk] = codes_b
             parts.append((chunk, chunk_uniques))
         uniques = parts[0][1] if len(parts) == 1 else \
             pd.unique(np.concatenate([u for _, u in parts])).astype(object)

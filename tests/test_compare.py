@@ -322,8 +322,50 @@ def test_read_pass_file_states_as_passdata_from_texts_gives_them(tmp_path):
         ours = read_pass_file(path, cb, 2)
         texts, _ = read_keyed_file(path, cb)
         theirs = PassData.from_texts(2, texts, label_prefix=f"{path.name} row")
-        pd.testing.assert_frame_equal(ours.text, theirs.text)
-        pd.testing.assert_frame_equal(ours.state, theirs.state)
+        # Same values; read_pass_file holds them as categories (lighter).
+        pd.testing.assert_frame_equal(ours.text.astype(object), theirs.text)
+        pd.testing.assert_frame_equal(ours.state.astype(object), theirs.state)
         assert ours.label.tolist() == theirs.label.tolist()
         assert ours.keyer.tolist() == theirs.keyer.tolist()
     assert (read_pass_file(spaced, cb, 2).state.iloc[0, 1:] == "blank").all()
+
+
+def test_categorical_passes_compare_as_plain_ones(tmp_path):
+    # Keyed files arrive as categorical tables; the engine reads their codes
+    # instead of hashing cells. The object tables of PassData.from_texts are
+    # the reference: both must give the same discrepancy table.
+    from core.codebook_io import load_codebook
+    from core.importer import read_keyed_file, read_pass_file
+    from core.passdata import PassData
+
+    cb = load_codebook(DEMO / "codebook.csv")
+    lines = (DEMO / "pass2.csv").read_text(encoding="utf-8").splitlines()
+    # Drop a form and repeat another, so pairing works on a subset in another order.
+    shuffled = tmp_path / "pass2.csv"
+    shuffled.write_text("\n".join([lines[0], *reversed(lines[3:]), lines[3]]) + "\n",
+                        encoding="utf-8")
+    for second in (DEMO / "pass2.csv", shuffled):
+        plain = [PassData.from_texts(n, read_keyed_file(path, cb)[0],
+                                     label_prefix=f"{path.name} row")
+                 for n, path in ((1, DEMO / "pass1.csv"), (2, second))]
+        coded = [read_pass_file(path, cb, n) for n, path in ((1, DEMO / "pass1.csv"), (2, second))]
+        assert isinstance(coded[0].text.dtypes.iloc[0], pd.CategoricalDtype)
+        expected = compare_passes(cb, *plain)
+        got = compare_passes(cb, *coded)
+        assert len(expected) > 0
+        pd.testing.assert_frame_equal(got, expected)
+
+
+@settings(max_examples=15, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(two_passes())
+def test_random_passes_give_the_same_table_held_as_categories(passes):
+    # The object tables are the reference; the categorical copies (as read_pass_file
+    # gives them) go through the engine's code-reading path.
+    p1, p2 = passes
+
+    def coded(p):
+        return PassData(p.pass_no, p.text.astype("category"), p.state.astype("category"),
+                        p.keyer, p.label)
+
+    pd.testing.assert_frame_equal(compare_passes(CODEBOOK, coded(p1), coded(p2)),
+                                  compare_passes(CODEBOOK, p1, p2))
