@@ -365,12 +365,18 @@ def _positions(reference: np.ndarray, values: np.ndarray, index: pd.Index | None
 _CHUNK = 16
 
 
-def _grid(frame: pd.DataFrame, rows: np.ndarray, cols: list[int]) -> np.ndarray:
-    """The listed rows and columns of a frame as one column-major 2-D object array."""
-    out = np.empty((len(rows), len(cols)), dtype=object, order="F")
-    every = len(rows) == len(frame) and bool((rows == np.arange(len(rows))).all())
-    for i, j in enumerate(cols):
-        column = frame.iloc[:, j].to_numpy(dtype=object)
+def _columns(frame: pd.DataFrame) -> list[pd.Series]:
+    # One pass over the columns: positional access one at a time costs far more.
+    return [column for _, column in frame.items()]
+
+
+def _grid(columns: list[pd.Series], rows: np.ndarray) -> np.ndarray:
+    """The listed rows of some columns as one column-major 2-D object array."""
+    out = np.empty((len(rows), len(columns)), dtype=object, order="F")
+    every = bool(columns) and len(rows) == len(columns[0]) \
+        and bool((rows == np.arange(len(rows))).all())
+    for i, col in enumerate(columns):
+        column = col.to_numpy(dtype=object)
         out[:, i] = column if every else column[rows]
     return out
 
@@ -379,18 +385,18 @@ def _categorical(columns: list[pd.Series]) -> bool:
     return all(isinstance(c.dtype, pd.CategoricalDtype) for c in columns)
 
 
-def _pair_chunk(t1: pd.DataFrame, t2: pd.DataFrame, pos1, pos2, chunk: list[int]):
+def _pair_chunk(t1: list[pd.Series], t2: list[pd.Series], pos1, pos2, chunk: list[int]):
     """Codes of a few columns of both passes (-1 = no text), column-major, and their texts.
 
     Categorical columns (keyed files) already hold codes: only their few
     categories are matched up, no cell is hashed. Other columns are factorised.
     """
-    cols1 = [t1.iloc[:, j] for j in chunk]
-    cols2 = [t2.iloc[:, j] for j in chunk]
+    cols1 = [t1[j] for j in chunk]
+    cols2 = [t2[j] for j in chunk]
     shape = (len(pos1), len(chunk))
     if not _categorical(cols1 + cols2):
-        codes_a, codes_b, uniques = _pair_codes(_grid(t1, pos1, chunk).ravel(order="F"),
-                                                _grid(t2, pos2, chunk).ravel(order="F"))
+        codes_a, codes_b, uniques = _pair_codes(_grid(cols1, pos1).ravel(order="F"),
+                                                _grid(cols2, pos2).ravel(order="F"))
         return (codes_a.reshape(shape, order="F"), codes_b.reshape(shape, order="F"), uniques)
     # One factorisation of all the columns' categories numbers them for the chunk.
     cats = [c.cat.categories.to_numpy(dtype=object) for c in cols1 + cols2]
@@ -407,7 +413,7 @@ def _pair_chunk(t1: pd.DataFrame, t2: pd.DataFrame, pos1, pos2, chunk: list[int]
 
 def _state_grid(state: pd.DataFrame, rows: np.ndarray) -> np.ndarray:
     """State codes of the listed rows (all columns), column-major."""
-    columns = [state.iloc[:, j] for j in range(state.shape[1])]
+    columns = _columns(state)
     if _categorical(columns):
         out = np.empty((len(rows), len(columns)), dtype=np.int8, order="F")
         words = {KEYED: _K, BLANK: _B, ILLEGIBLE: _I}
@@ -455,6 +461,7 @@ def _sides(codebook: Codebook, p1: PassData, p2: PassData, forms1, forms2, progr
              for _ in range(2)]
     sides[0].state[:] = _state_grid(p1.state, pos1)
     sides[1].state[:] = _state_grid(p2.state, pos2)
+    text1, text2 = _columns(p1.text), _columns(p2.text)
     groups: dict[tuple, list[int]] = {}
     for j, var in enumerate(codebook.variables):
         groups.setdefault(_signature(var), []).append(j)
@@ -468,7 +475,7 @@ def _sides(codebook: Codebook, p1: PassData, p2: PassData, forms1, forms2, progr
         parts = []
         for start in range(0, len(cols), _CHUNK):
             chunk = cols[start:start + _CHUNK]
-            codes_a, codes_b, chunk_uniques = _pair_chunk(p1.text, p2.text, pos1, pos2, chunk)
+            codes_a, codes_b, chunk_uniques = _pair_chunk(text1, text2, pos1, pos2, chunk)
             sides[0].ucode[:, chunk] = codes_a
             sides[1].ucode[:, chunk] = codes_b
             parts.append((chunk, chunk_uniques))
