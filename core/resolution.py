@@ -35,7 +35,8 @@ Length: past the house's ~600 lines on purpose: every decision kind shares
 one set of checks (reason, keyer, a value that may stand) and the screen
 imports one module. The decisions file (``core.decisions_file``) and the
 building of the verified table (``core.verified_build``) live apart, behind
-:func:`apply_decisions_file` and :func:`verified_table` here.
+:func:`apply_decisions_file` and :func:`verified_table` here; set-asides
+live in ``core.setaside`` and are re-exported here.
 
 Decisions file (``keyproof decide --from``): columns ``participant, variable,
 value, reason``; an empty value means blank on paper; a declared missing code
@@ -54,6 +55,17 @@ import pandas as pd
 
 from .codebook import Codebook, Variable
 from .errors import DecisionError
+from .setaside import (  # set-asides live apart; their names stay importable from here
+    SET_ASIDE_COLUMNS,  # noqa: F401
+    _canonical_id,
+    _canonical_ids,
+    _need_keyer,
+    _need_reason,
+    everyone_kept,  # noqa: F401
+    restore,  # noqa: F401
+    set_aside,  # noqa: F401
+    set_aside_list,  # noqa: F401
+)
 from .values import BLANK, ILLEGIBLE, INVALID_TYPE, KEYED, allowed_text, canonical_series, parse
 from .verified import Verified
 
@@ -624,54 +636,15 @@ def keyed_by_resolver(study, resolver: str, participants: Iterable[str] | None =
     return [ordered[i] for i in _natural_order(pd.Index(ordered, dtype=object))]
 
 
-# --------------------------------------------------------------------------- set aside
-
-
-def set_aside(study, participant: str, reason: str, keyer: str, rule: str = "") -> None:
-    """Keep ``participant`` out of the analysis file, with the reason (journaled).
-
-    ``rule`` optionally names the rule applied (e.g. ``"fewer than half answered"``)
-    so the same reason is used consistently. Refused for an unknown participant.
-
-    >>> set_aside(study, "17", "answered a different version", "LM")   # doctest: +SKIP
-    """
-    participant = _known_participant(study, participant)
-    reason = _need_reason(reason)
-    keyer = _need_keyer(keyer)
-    # Setting aside again replaces the reason (the store journals both).
-    study.set_aside(participant, reason, keyer, rule=str(rule or "").strip())
-
-
-def restore(study, participant: str, reason: str, keyer: str) -> None:
-    """Bring a set-aside participant back into the analysis file (journaled).
-
-    >>> restore(study, "17", "set aside by mistake", "LM")   # doctest: +SKIP
-    """
-    participant = _canonical_id(study.codebook, participant)
-    reason = _need_reason(reason)
-    keyer = _need_keyer(keyer)
-    if participant not in set(set_aside_list(study)["participant"].astype(str)):
-        raise DecisionError(f"participant {participant} is not set aside — nothing to restore.")
-    study.restore_participant(participant, reason, keyer)
-
-
-def set_aside_list(study) -> pd.DataFrame:
-    """Participants set aside now: participant, reason, rule, keyer, at.
-
-    >>> set_aside_list(study)["participant"].tolist()   # doctest: +SKIP
-    ['17']
-    """
-    table = study.set_asides()
-    if table is None or table.empty:
-        return pd.DataFrame(columns=["participant", "reason", "rule", "keyer", "at"])
-    return table.reset_index(drop=True)
-
-
 # --------------------------------------------------------------------------- helpers
 
 
-def _text(row, name: str) -> str:
-    value = _get(row, name)
+def cell_text(value) -> str:
+    """One worklist cell as text: None and NA give "" (the worklist mixes both).
+
+    >>> cell_text(pd.NA), cell_text(None), cell_text(17)
+    ('', '', '17')
+    """
     if value is None:
         return ""
     try:
@@ -680,6 +653,10 @@ def _text(row, name: str) -> str:
     except (TypeError, ValueError):
         pass
     return str(value)
+
+
+def _text(row, name: str) -> str:
+    return cell_text(_get(row, name))
 
 
 def _get(row, name: str):
@@ -709,20 +686,6 @@ def _int_or_none(value) -> int | None:
 
 def _forms_of(row) -> tuple[int | None, int | None]:
     return _int_or_none(_get(row, "_form1")), _int_or_none(_get(row, "_form2"))
-
-
-def _need_reason(reason: str) -> str:
-    text = " ".join(str(reason or "").split())
-    if not text:
-        raise DecisionError("a decision needs a reason — pick one from the list or type one.")
-    return text
-
-
-def _need_keyer(keyer: str) -> str:
-    text = str(keyer or "").strip()
-    if not text:
-        raise DecisionError("a decision needs the resolver's initials — give --keyer NAME.")
-    return text
 
 
 def _variable(codebook: Codebook, row) -> Variable:
@@ -781,26 +744,6 @@ def _canonical_set(var: Variable, values: Iterable[str]) -> set[str]:
         return set()
     canon, _ = canonical_series(var, pd.Series(values, dtype=object))
     return set(canon.dropna())
-
-
-def _canonical_ids(codebook: Codebook, texts: pd.Series) -> pd.Series:
-    canon, _ = canonical_series(codebook.id_variable, texts.astype(object))
-    return canon.astype("string").fillna("")
-
-
-def _canonical_id(codebook: Codebook, text: str) -> str:
-    return str(_canonical_ids(codebook, pd.Series([str(text)], dtype=object)).iloc[0])
-
-
-def _known_participant(study, participant: str) -> str:
-    wanted = _canonical_id(study.codebook, participant)
-    forms = study.forms()
-    ids = set(_canonical_ids(study.codebook, forms["participant"])) if len(forms) else set()
-    if not wanted or wanted not in ids:
-        raise DecisionError(
-            f'participant "{participant}" has no form in this study — check the ID.'
-        )
-    return wanted
 
 
 ProgressFn = Callable[[int, int], None]

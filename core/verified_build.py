@@ -37,17 +37,7 @@ from .verified import Verified
 
 def build_verified(study, draft: bool = False, progress: ProgressFn | None = None,
                    rows: pd.DataFrame | None = None) -> Verified:
-    """What stands for every participant not set aside, typed per the codebook.
-
-    A cell holds the agreed value where both passes agree and nothing is
-    open, else the value of its settled decision; blank and illegible paper
-    give NA, and declared missing codes stay as codes. Forms are paired by
-    ID; dropped forms are left out. While anything is open (set-aside
-    participants aside) it refuses with :class:`OpenWorkError` (counts by
-    kind), unless ``draft``: open cells are then NA and listed in
-    ``open_cells``, and a participant with an open form-level problem has
-    only its ID. ``progress(done, total)`` counts variables typed.
-    ``rows`` is a worklist already computed (:func:`worklist`); None computes it.
+    """The work behind :func:`core.resolution.verified_table`, whose docstring says what stands.
 
     >>> build_verified(study).data.head()             # doctest: +SKIP
     """

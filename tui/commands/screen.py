@@ -39,7 +39,7 @@ def configure(parser: argparse.ArgumentParser) -> None:
 
 def run(args: argparse.Namespace) -> int:
     from core.errors import UsageError
-    from core.resolution import set_aside, verified_table
+    from core.resolution import everyone_kept, set_aside, verified_table
     from core.screening import kappa_pairs_from_passes, parse_rule, screen
     from core.store import Study
 
@@ -64,7 +64,7 @@ def run(args: argparse.Namespace) -> int:
                 data = verified.data
         data_all = None
         if len(verified.set_aside):
-            data_all = verified_table(_NothingSetAside(study), draft=True).data
+            data_all = verified_table(everyone_kept(study), draft=True).data
         pairs = kappa_pairs_from_passes(codebook, study.load_pass(1), study.load_pass(2))
     result = screen(data, codebook, data_all=data_all, kappa_pairs=pairs)
     open_cells = len(verified.open_cells)
@@ -101,25 +101,6 @@ def _refuse_open(open_cells, rules, codebook) -> None:
             "with keyproof resolve or decide, then apply the rule.",
             {str(k): int(v) for k, v in hit["kind"].value_counts().items()},
         )
-
-
-class _NothingSetAside:
-    """The study as if nobody were set aside: the sensitivity table's "all" column.
-
-    Read-only by construction: it only answers questions, so no set-aside is
-    lifted in the study itself.
-    """
-
-    def __init__(self, study):
-        self._study = study
-
-    def set_asides(self):
-        import pandas as pd
-
-        return pd.DataFrame(columns=["participant", "reason", "rule", "keyer", "at"])
-
-    def __getattr__(self, name):
-        return getattr(self._study, name)
 
 
 def _check_out(path):

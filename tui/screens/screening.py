@@ -32,7 +32,7 @@ def gather(study_path) -> ScreeningData:
     """Everything the view shows, read through a read-only connection of its own."""
     import pandas as pd
 
-    from core.resolution import verified_table
+    from core.resolution import everyone_kept, verified_table
     from core.screening import kappa_pairs_from_passes, screen
     from core.store import Study
 
@@ -41,7 +41,7 @@ def gather(study_path) -> ScreeningData:
         verified = verified_table(study, draft=True)
         data_all = None
         if len(verified.set_aside):
-            data_all = verified_table(_EveryoneKept(study), draft=True).data
+            data_all = verified_table(everyone_kept(study), draft=True).data
         pairs = kappa_pairs_from_passes(codebook, study.load_pass(1), study.load_pass(2))
     result = screen(verified.data, codebook, data_all=data_all, kappa_pairs=pairs)
     open_cells = len(verified.open_cells)
@@ -57,21 +57,6 @@ def gather(study_path) -> ScreeningData:
                       "the overview shows the numbers with them kept in.")  # fmt: skip
     return ScreeningData(result, verified.data, codebook, verified.study or Path(study_path).name,
                          tuple(notes), verified.open_cells, aside.reset_index(drop=True))  # fmt: skip
-
-
-class _EveryoneKept:
-    """The study as if nobody were set aside (only answers questions; writes nothing)."""
-
-    def __init__(self, study):
-        self._study = study
-
-    def set_asides(self):
-        import pandas as pd
-
-        return pd.DataFrame(columns=["participant", "reason", "rule", "keyer", "at"])
-
-    def __getattr__(self, name):
-        return getattr(self._study, name)
 
 
 class ScreeningScreen(Screen):

@@ -10,6 +10,7 @@ from __future__ import annotations
 import pandas as pd
 from textual.widgets import Static
 
+from core.resolution import FORM_KINDS, cell_text
 from core.values import allowed_text
 
 CAUSE_WORDS = {
@@ -25,18 +26,8 @@ CAUSE_WORDS = {
     "other": "no simple slip explains it",
 }
 
-FORM_KINDS = ("only_in_pass1", "only_in_pass2", "duplicate_id")
-
-
-def _s(value) -> str:
-    if value is None:
-        return ""
-    try:
-        if pd.isna(value):
-            return ""
-    except (TypeError, ValueError):
-        pass
-    return str(value)
+# Worklist cells mix None and NA; core's reading of them is the one the decisions use.
+_s = cell_text
 
 
 def _shown(text: str) -> str:
