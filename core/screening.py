@@ -696,18 +696,16 @@ SUMMARY_COLUMNS = [
 ]  # fmt: skip
 
 
+# The moments and order statistics, named alike in Descriptives, the summary table and the JSON.
+_STATS = ("mean", "sd", "median", "min", "max", "skewness", "kurtosis")
+
+
 def _desc_row(d: Descriptives) -> dict:
     return {
         "n": d.n,
         "blank": d.blank,
         "missing": sum(d.missing.values()),
-        "mean": d.mean,
-        "sd": d.sd,
-        "median": d.median,
-        "min": d.min,
-        "max": d.max,
-        "skewness": d.skewness,
-        "kurtosis": d.kurtosis,
+        **{name: getattr(d, name) for name in _STATS},
         "outliers_z": " ".join(d.outliers_z),
         "outliers_tukey": " ".join(d.outliers_tukey),
     }
@@ -718,13 +716,7 @@ def _desc_dict(d: Descriptives) -> dict:
         "n": d.n,
         "blank": d.blank,
         "missing": dict(d.missing),
-        "mean": d.mean,
-        "sd": d.sd,
-        "median": d.median,
-        "min": d.min,
-        "max": d.max,
-        "skewness": d.skewness,
-        "kurtosis": d.kurtosis,
+        **{name: getattr(d, name) for name in _STATS},
         "tukey_fences": [d.fences.low, d.fences.high],
         "outliers_z": list(d.outliers_z),
         "outliers_tukey": list(d.outliers_tukey),
