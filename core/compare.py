@@ -322,7 +322,6 @@ class _Side:
 
     state: np.ndarray  # int8 state code
     ucode: np.ndarray  # the cell's text among its variable group's distinct texts; -1 none
-    gid: np.ndarray  # canonical value, numbered across all variables: equal = same value
     valid: np.ndarray
     problem: np.ndarray  # 0, or 2 out_of_range, 3 not_in_codes
     missing: np.ndarray  # a declared missing code
@@ -457,8 +456,12 @@ def _sides(codebook: Codebook, p1: PassData, p2: PassData, forms1, forms2, progr
     pos1, pos2 = p1.text.index.get_indexer(forms1), p2.text.index.get_indexer(forms2)
     # Column-major, since they are filled one group of columns at a time.
     sides = [_Side(*(np.empty((n, m), dtype, order="F")
-                     for dtype in (np.int8, np.int32, np.int32, bool, np.int8, bool)))
+                     for dtype in (np.int8, np.int32, bool, np.int8, bool)))
              for _ in range(2)]
+    # Whether the two passes' canonical values are equal: a bool per cell, where
+    # keeping each side's value numbers would take eight bytes.
+    same = np.empty((n, m), dtype=bool, order="F")
+    gid_of: list[np.ndarray] = [None] * m  # per column: value number by ucode (+ -1)
     sides[0].state[:] = _state_grid(p1.state, pos1)
     sides[1].state[:] = _state_grid(p2.state, pos2)
     text1, text2 = _columns(p1.text), _columns(p2.text)
@@ -499,23 +502,26 @@ def _sides(codebook: Codebook, p1: PassData, p2: PassData, forms1, forms2, progr
         for chunk, chunk_uniques in parts:
             remap = None if len(parts) == 1 else \
                 np.append(_positions(uniques, chunk_uniques, index), -1).astype(np.int32)
+            values = []
             for side in sides:
                 c = side.ucode[:, chunk]
                 if remap is not None:
                     c = remap[c]
                     side.ucode[:, chunk] = c
-                side.gid[:, chunk] = gid[c]
+                values.append(gid[c])
                 side.valid[:, chunk] = valid_ext[c]
                 side.problem[:, chunk] = problem_ext[c]
                 side.missing[:, chunk] = missing_ext[c]
+            same[:, chunk] = values[0] == values[1]
         texts_ext = np.append(uniques.astype(object), None)
         canon_ext = np.append(canon_arr, None)
         for j in cols:
             texts_of[j] = texts_ext
             canon_of[j] = canon_ext
+            gid_of[j] = gid
         if progress:
             progress(done, len(groups))
-    return sides, texts_of, canon_of
+    return sides, same, texts_of, canon_of, gid_of
 
 
 def _cells(side: _Side, lookup: list[np.ndarray], rows: np.ndarray, cols: np.ndarray) -> np.ndarray:
@@ -554,13 +560,15 @@ def _compare_fields(codebook, p1, p2, forms1, forms2, progress) -> pd.DataFrame:
     variables = codebook.variables
     if len(forms1) == 0:
         return _field_frame([], [], [], [], [], [], [], [], [], [])
-    (a, b), texts_of, canon_of = _sides(codebook, p1, p2, forms1, forms2, progress)
+    (a, b), same, texts_of, canon_of, gid_of = _sides(codebook, p1, p2, forms1, forms2,
+                                                      progress)
     required = np.array([v.required for v in variables], dtype=bool)
     conditional = np.array([bool(v.applies_if.strip()) for v in variables], dtype=bool)
     cond_a, cond_b = _conditions(codebook, a, canon_of), _conditions(codebook, b, canon_of)
 
     keyed_a, keyed_b = a.state == _K, b.state == _K
-    differ = (a.state != b.state) | (keyed_a & keyed_b & (a.gid != b.gid))
+    differ = (a.state != b.state) | (keyed_a & keyed_b & ~same)
+    del same
     agreed = keyed_a & keyed_b & ~differ
     empty_agreed = ~differ & ((a.state == _B) | (a.state == _I))
     kind = np.zeros(differ.shape, dtype=np.int8)
@@ -581,7 +589,7 @@ def _compare_fields(codebook, p1, p2, forms1, forms2, progress) -> pd.DataFrame:
     is_mis = k == _KIND_CODE["mismatch"]
     cause = np.full(len(rows), "", dtype=object)
     if is_mis.any():
-        shift = _shift_cells(a, b, differ)
+        shift = _shift_cells(a, b, differ, gid_of)
         cause[is_mis] = _mismatch_causes(variables, a, b, rows[is_mis], cols[is_mis],
                                          text_a[is_mis], text_b[is_mis], shift)
     side_a = _side_problems(a, cond_a, required, rows, cols)
@@ -615,16 +623,24 @@ def _field_frame(rows, variable, kind, pass1, pass2, cause, detail, form1, form2
     })
 
 
-def _shift_cells(a: _Side, b: _Side, differ: np.ndarray) -> np.ndarray:
+def _shift_cells(a: _Side, b: _Side, differ: np.ndarray, gid_of) -> np.ndarray:
     """Field-shift cells; only forms with two or more disagreements can hold a run."""
     out = np.zeros(differ.shape, dtype=bool)
     rows = np.flatnonzero(differ.sum(axis=1) >= 2)
     if len(rows) == 0:
         return out
     # Keys comparable across variables: canonical value and state together.
-    keys = [(s.gid[rows].astype(np.int64) + 1) * 4 + s.state[rows] for s in (a, b)]
+    keys = [(_gids(s, gid_of, rows) + 1) * 4 + s.state[rows] for s in (a, b)]
     absent = [(s.state[rows] == _B) | (s.state[rows] == _N) for s in (a, b)]
     out[rows] = _causes.field_shift_cells(keys[0], keys[1], differ[rows], absent[0], absent[1])
+    return out
+
+
+def _gids(side: _Side, gid_of, rows: np.ndarray) -> np.ndarray:
+    """Value numbers (comparable across variables) of the listed rows."""
+    out = np.empty((len(rows), len(gid_of)), dtype=np.int64)
+    for j, gid in enumerate(gid_of):
+        out[:, j] = gid[side.ucode[rows, j]]
     return out
 
 

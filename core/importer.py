@@ -334,7 +334,10 @@ def _read_plain_csv(name: str, text: str, delimiter: str, notes: list[str]):
     kept, numbers, short, empty = [], [], [], 0
     for number, line in enumerate(lines[1:], start=2):
         cells = line.count(delimiter) + 1
-        if not line.replace(delimiter, "").strip():
+        # A line starting with a visible character is not empty; look closer otherwise.
+        first = line[:1]
+        if (not first or first == delimiter or first.isspace()) \
+                and not line.replace(delimiter, "").strip():
             empty += 1
             continue
         if cells > width:
