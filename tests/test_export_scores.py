@@ -13,13 +13,12 @@ from __future__ import annotations
 
 import json
 import math
-from pathlib import Path
 
 import numpy as np
 import openpyxl
 import pandas as pd
 import pytest
-from demo_resolved import resolved_demo
+from demo_resolved import FIXTURES, resolved_demo
 from frictionless import validate
 
 from core.codebook import Code, Codebook, Variable
@@ -28,7 +27,6 @@ from core.resolution import verified_table
 from core.store import Study
 from core.verified import Verified
 
-FIXTURES = Path(__file__).resolve().parents[1] / "fixtures" / "demo"
 SCALES = ["belonging", "workdays", "sharing"]  # paper order of the demo codebook
 
 

@@ -8,13 +8,11 @@ corrected item-total correlation behind a negative-item flag.
 
 from __future__ import annotations
 
-from pathlib import Path
-
 import numpy as np
 import pandas as pd
 import pingouin as pg
 import pytest
-from demo_resolved import copy_study, resolved_demo
+from demo_resolved import FIXTURES, copy_study, resolved_demo
 from scipy import stats
 
 import core.compare
@@ -31,7 +29,6 @@ from core.resolution import set_aside
 from core.screening import ZRule
 from core.store import Study
 
-FIXTURES = Path(__file__).resolve().parents[1] / "fixtures" / "demo"
 RESOLVER = "LM"
 
 
