@@ -265,10 +265,21 @@ def next_open(rows: pd.DataFrame, start: int = 0) -> int | None:
 def position_of(rows: pd.DataFrame, participant: str) -> int | None:
     """Position of the first row of ``participant`` (as shown), for jumping to a form.
 
+    A whole-number ID also finds the form by value, as the comparison pairs
+    them (``07`` finds ``7``).
+
     >>> position_of(pd.DataFrame({"participant": ["3", "7", "7"]}), " 7")
     1
+    >>> position_of(pd.DataFrame({"participant": ["3", "7"]}), "007")
+    1
     """
-    hits = np.flatnonzero(rows["participant"].astype(str).to_numpy() == str(participant).strip())
+    wanted = str(participant).strip()
+    shown = rows["participant"].astype(str)
+    hits = np.flatnonzero(shown.to_numpy() == wanted)
+    if not len(hits) and wanted.lstrip("+-").isdigit():
+        numbers = pd.to_numeric(shown.where(shown.str.fullmatch(r"[+-]?\d+"), None),
+                                errors="coerce")
+        hits = np.flatnonzero((numbers == int(wanted)).fillna(False).to_numpy())
     return int(hits[0]) if len(hits) else None
 
 
