@@ -192,7 +192,9 @@ def classify(
         todo = both & ~case_space
         nums = todo & numeric.astype(bool)
         if nums.any():
-            got = pd.Series([number_cause(a, b) for a, b in zip(t1[nums], t2[nums], strict=True)],
+            # Plain lists: iterating a string-typed Series costs a call per element.
+            got = pd.Series([number_cause(a, b) for a, b in zip(t1[nums].tolist(),
+                                                                t2[nums].tolist(), strict=True)],
                             index=t1[nums].index, dtype=object)
             got = got[got != ""]
             out[got.index] = got
@@ -200,7 +202,8 @@ def classify(
         if todo.any():
             widths = (width if width is not None else pd.Series(0, index=index))[todo]
             out[todo] = [text_cause(a, b, int(w) or None)
-                         for a, b, w in zip(t1[todo], t2[todo], widths, strict=True)]
+                         for a, b, w in zip(t1[todo].tolist(), t2[todo].tolist(),
+                                            widths.tolist(), strict=True)]
     one_side = (keyed1 & absent2) | (keyed2 & absent1)
     out[one_side] = "omitted"
     if shift is not None:

@@ -369,3 +369,12 @@ def test_random_passes_give_the_same_table_held_as_categories(passes):
 
     pd.testing.assert_frame_equal(compare_passes(CODEBOOK, coded(p1), coded(p2)),
                                   compare_passes(CODEBOOK, p1, p2))
+
+
+@settings(max_examples=50, deadline=None)
+@given(st.lists(st.from_regex(r"-?[0-9]{1,4}|[a-c]?[0-9]{0,2}", fullmatch=True), max_size=12))
+def test_natural_order_of_participants_is_natural_key_order(ids):
+    # natural_key (the documented order) is the reference for the quicker sort.
+    from core.compare import _natural_sorted, natural_key
+
+    assert _natural_sorted(ids) == sorted(ids, key=natural_key)
