@@ -721,13 +721,17 @@ def _form_rows(codebook, p1: PassData, p2: PassData, ids1, ids2, dups, paired) -
     # Unpaired forms may pair with each other or with a form of a duplicated ID.
     cand1 = ids1[~ids1.isin(paired)]
     cand2 = ids2[~ids2.isin(paired)]
-    others = [n for n in codebook.names if n != idname]
-    keys1 = _pairing.field_keys(p1.text.loc[cand1.index, others], p1.state.loc[cand1.index, others])
-    keys2 = _pairing.field_keys(p2.text.loc[cand2.index, others], p2.state.loc[cand2.index, others])
-    in1 = cand1.index.get_indexer(rest1.index)
-    in2 = cand2.index.get_indexer(rest2.index)
-    hints1 = _pairing.suggest(rest1, keys1[in1], cand2, keys2)
-    hints2 = _pairing.suggest(rest2, keys2[in2], cand1, keys1)
+    hints1, hints2 = {}, {}
+    if len(rest1) or len(rest2):  # partners are suggested for unpaired forms only
+        others = [n for n in codebook.names if n != idname]
+        keys1 = _pairing.field_keys(p1.text.loc[cand1.index, others],
+                                    p1.state.loc[cand1.index, others])
+        keys2 = _pairing.field_keys(p2.text.loc[cand2.index, others],
+                                    p2.state.loc[cand2.index, others])
+        in1 = cand1.index.get_indexer(rest1.index)
+        in2 = cand2.index.get_indexer(rest2.index)
+        hints1 = _pairing.suggest(rest1, keys1[in1], cand2, keys2)
+        hints2 = _pairing.suggest(rest2, keys2[in2], cand1, keys1)
     for pass_no, p, rest, hints, other in ((1, p1, rest1, hints1, 2), (2, p2, rest2, hints2, 1)):
         shown = _shown(p.text.loc[rest.index, idname].to_numpy(dtype=object),
                        _state_codes(p.state.loc[rest.index, [idname]])[:, 0])
