@@ -56,10 +56,10 @@ async def keys_in_order(screen, event: events.Key) -> None:
         await screen.run_action(active.binding.action)
 
 
-def _list_text(items: list[str], marked: int) -> str:
+def _list_text(items: list[str], marked: int, digits: int = len(PICK_KEYS)) -> str:
     lines = []
     for i, item in enumerate(items):
-        key = PICK_KEYS[i] if i < len(PICK_KEYS) else " "
+        key = PICK_KEYS[i] if i < digits else " "
         lines.append(f"{'›' if i == marked else ' '} {key}  {item}")
     return "\n".join(lines)
 
@@ -78,6 +78,8 @@ class PickList(ModalScreen[str | None]):
     ]
 
     HINT = "digit: pick  ·  ↑↓ Enter: the marked one  ·  Esc: cancel"
+    DIGITS = len(PICK_KEYS)
+    """How many entries get a digit; the rest are reached with ↑↓ Enter."""
 
     def __init__(self, title: str, items: list[str], marked: int = 0, note: str = "", **kwargs):
         super().__init__(**kwargs)
@@ -90,17 +92,17 @@ class PickList(ModalScreen[str | None]):
         yield Static(self.title_text, classes="dialog-title", markup=False)
         if self.note:
             yield Static(self.note, classes="dialog-note", markup=False)
-        yield Static(_list_text(self.items, self.marked), classes="dialog-list", markup=False)
+        yield Static(_list_text(self.items, self.marked, self.DIGITS), classes="dialog-list", markup=False)
         yield Static(self.HINT, classes="dialog-hint", markup=False)
 
     async def on_key(self, event: events.Key) -> None:
         await keys_in_order(self, event)
 
     def _repaint(self) -> None:
-        self.query_one(".dialog-list", Static).update(_list_text(self.items, self.marked))
+        self.query_one(".dialog-list", Static).update(_list_text(self.items, self.marked, self.DIGITS))
 
     def action_pick(self, i: int) -> None:
-        if i < len(self.items):
+        if i < min(len(self.items), self.DIGITS):
             self.dismiss(self.items[i])
 
     def action_mark(self, step: int) -> None:
@@ -121,9 +123,13 @@ class ReasonDialog(PickList):
 
     A digit picks a reason; Enter takes the marked one (the screen marks the
     likeliest); ``t`` moves to the free-text line, where Enter submits it.
+    Digits 1 to 9 follow the study's list in order (the reasons editor keeps
+    it to nine); 0 picks nothing here, as it means "blank" on the screen
+    behind, and reasons past the ninth are reached with ↑↓ Enter.
     """
 
     BINDINGS = [Binding("t", "free_text", "type a reason")]
+    DIGITS = 9
     HINT = "digit: pick  ·  ↑↓ Enter: the marked one  ·  t: type a reason  ·  Esc: cancel"
 
     def __init__(self, what: str, reasons: list[str], marked: int = 0, note: str = "", **kwargs):

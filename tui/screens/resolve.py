@@ -73,6 +73,7 @@ class ResolveScreen(Screen):
         Binding("j", "jump", "jump", id="resolve.jump"),
         Binding("a", "set_aside", "set aside", id="resolve.set-aside"),
         Binding("v", "view_set_aside", "aside list", id="resolve.set-aside-list"),
+        Binding("e", "edit_reasons", "reasons", id="resolve.reasons"),
         Binding("r", "reload", "reload", id="resolve.reload", show=False),
         Binding("escape", "leave", "home", id="resolve.leave"),
     ]
@@ -191,9 +192,27 @@ class ResolveScreen(Screen):
             # Only the resolver's own forms can warn; the exact words come from core.
             self._warnings[participant] = (res.independence_warning(self.study, participant, self.keyer)
                                            if participant in self.own else None)
-        around = None if row["kind"] in res.FORM_KINDS else res.neighbours(self.study, row)
-        detail.show(detail_text(self.study.codebook, row, around, self._warnings[participant]))
+        form_level = row["kind"] in res.FORM_KINDS
+        around = None if form_level else res.neighbours(self.study, row)
+        partner = self.partner_id(row) if form_level else None
+        detail.show(detail_text(self.study.codebook, row, around, self._warnings[participant],
+                                partner_id=partner))
         self._set_shape(row)
+
+    def partner_id(self, row) -> str | None:
+        """The suggested partner's participant ID as its own pass keyed it (None without one).
+
+        A form serial means nothing on paper; the ID written on the form does.
+        Read only for form-level rows, a handful per study.
+        """
+        form_id = _form_id(row.get("_partner"))
+        if form_id is None:
+            return None
+        try:
+            texts = self.study.form(form_id).texts
+        except KeyproofError:
+            return None
+        return texts.get(self.study.codebook.id_variable.name) or ""
 
     def header_text(self) -> str:
         if self.rows is None:
@@ -510,6 +529,20 @@ class ResolveScreen(Screen):
         self._form_decision("this form exists in one pass only (the other pass must key it)", "confirm",
                             lambda r, reason: res.confirm_one_pass(self.study, r, reason, self.keyer))
 
+    # ------------------------------------------------------------------ reasons
+
+    def action_edit_reasons(self) -> None:
+        from .reasons_editor import ReasonsEditor
+
+        def saved(kept: list[str] | None) -> None:
+            if kept is None:
+                self.say("Reasons unchanged.")
+                return
+            self.reasons = kept
+            self.say(f"Reasons saved: {len(kept)}, journaled under {self.keyer}.")
+
+        self.app.push_screen(ReasonsEditor(self.study, self.keyer), saved)
+
     # ------------------------------------------------------------------ set aside
 
     def action_set_aside(self) -> None:
@@ -535,6 +568,12 @@ class ResolveScreen(Screen):
         from .setaside_view import SetAsideView
 
         self.app.push_screen(SetAsideView(self.study, self.keyer))
+
+
+def _form_id(value) -> int | None:
+    """A worklist cell holding a form id (None, NA or a number) as an int or None."""
+    text = res.cell_text(value)
+    return int(float(text)) if text else None
 
 
 def keyed_by_resolver(study, keyer: str) -> set[str]:

@@ -35,11 +35,13 @@ def _shown(text: str) -> str:
 
 
 def detail_text(codebook, row, around: pd.DataFrame | None = None,
-                warning: str | None = None) -> str:
+                warning: str | None = None, partner_id: str | None = None) -> str:
     """The detail of worklist ``row`` as lines of plain text.
 
     ``around`` is ``core.resolution.neighbours(...)`` (None for form-level
-    rows); ``warning`` the independence notice, shown first when given.
+    rows); ``warning`` the independence notice, shown first when given;
+    ``partner_id`` the participant ID the suggested partner form was keyed
+    with in the other pass (the resolver finds paper by ID, not by form serial).
     """
     lines = []
     if warning:
@@ -53,7 +55,13 @@ def detail_text(codebook, row, around: pd.DataFrame | None = None,
         if kind == "duplicate_id":
             lines.append("keys: d drop the selected pass's second form (keyed twice)")
         else:
-            hint = f"suggested partner: form {partner}  ·  p pair with it" if partner else "no likely partner found"
+            other = 2 if kind == "only_in_pass1" else 1
+            if not partner:
+                hint = "no likely partner found"
+            elif partner_id is None:  # the partner's ID was not looked up
+                hint = f"suggested partner: a pass {other} form  ·  p pair with it"
+            else:
+                hint = f"suggested partner: pass {other} form with ID {_shown(partner_id)}  ·  p pair with it"
             lines.append(f"{hint}  ·  c confirm it exists in one pass only")
     else:
         var = codebook[name] if name in codebook else None
