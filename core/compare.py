@@ -34,15 +34,18 @@ Decisions, written down so that later parts can rely on them:
 - ``pass1``/``pass2`` show the text as keyed, ``""`` for blank,
   ``(illegible)`` and ``(not keyed)`` for those states.
 
-Speed: the whole of both passes is handled as 2-D arrays. Cell texts are
-factorised once per group of variables sharing the same rules, so the value
+Speed: the whole of both passes is handled as 2-D arrays of small integer
+codes (``core.compare_codes``): the cells of a group of variables sharing the
+same rules are numbered among the group's distinct texts (taken straight from
+categorical columns, as keyed files arrive; hashed otherwise), so the value
 rules run on distinct texts only (a Likert block of 100,000 cells has five);
 everything else is array arithmetic. Python-level work happens per variable
 group, per discrepancy and per unpaired form, never per cell of a pass.
 
 Length: a little over 600 lines, because the field checks, the form-level
-rows and the ordering share the private array layout (``_Side``); the causes
-and the partner search, which do not, live in their own modules.
+rows and the ordering share the private array layout (``_Side``); turning
+cells into codes, the causes and the partner search, which do not, live in
+their own modules.
 """
 
 from __future__ import annotations
@@ -55,6 +58,7 @@ import numpy as np
 import pandas as pd
 
 from . import causes as _causes
+from . import compare_codes as _codes
 from . import pairing as _pairing
 from .codebook import Codebook, Variable
 from .conditions import parse_condition
@@ -75,7 +79,7 @@ ILLEGIBLE_SHOWN = "(illegible)"
 NOT_KEYED_SHOWN = "(not keyed)"
 
 # State codes in the arrays.
-_K, _B, _I, _N = 0, 1, 2, 3
+_K, _B, _I, _N = _codes.K, _codes.B, _codes.I, _codes.N
 # Kind codes; a higher code wins when a cell has several problems.
 _KIND_CODE = {"blank": 1, "out_of_range": 2, "not_in_codes": 3, "invalid_type": 4,
               "not_applicable": 5, "mismatch": 6}
@@ -336,122 +340,6 @@ class _Side:
     missing: np.ndarray  # a declared missing code
 
 
-def _pair_codes(a: np.ndarray, b: np.ndarray):
-    """Codes of the cells of two aligned 1-D object arrays (-1 = no text), and the texts.
-
-    Most cells of two passes are equal, so only pass 1 is hashed in full;
-    pass 2 borrows its codes and hashes just the cells that differ.
-    """
-    codes_a, uniques = pd.factorize(a)
-    uniques = np.asarray(uniques, dtype=object)
-    try:
-        diff = ~np.asarray(a == b, dtype=bool)
-    except (TypeError, ValueError):  # exotic cell objects: hash pass 2 in full
-        diff = np.ones(len(a), dtype=bool)
-    codes_b = codes_a.copy()
-    if diff.any():
-        codes_d, uniques_d = pd.factorize(b[diff])
-        uniques_d = np.asarray(uniques_d, dtype=object)
-        where = _positions(uniques, uniques_d)
-        new = where < 0
-        where[new] = len(uniques) + np.arange(int(new.sum()))
-        uniques = np.concatenate([uniques, uniques_d[new]])
-        codes_b[diff] = np.append(where, -1)[codes_d]
-    return codes_a, codes_b, uniques
-
-
-def _positions(reference: np.ndarray, values: np.ndarray, index: pd.Index | None = None):
-    """Position of each value in ``reference`` (-1 if absent); a dict for the usual small case."""
-    if len(reference) + len(values) > 5_000:
-        index = index if index is not None else pd.Index(reference, dtype=object)
-        return index.get_indexer(values)
-    where = {v: i for i, v in enumerate(reference.tolist())}
-    return np.array([where.get(v, -1) for v in values.tolist()], dtype=np.intp)
-
-
-#: Columns of one group factorised together.
-_CHUNK = 16
-
-
-def _columns(frame: pd.DataFrame) -> list[pd.Series]:
-    # One pass over the columns: positional access one at a time costs far more.
-    return [column for _, column in frame.items()]
-
-
-def _grid(columns: list[pd.Series], rows: np.ndarray) -> np.ndarray:
-    """The listed rows of some columns as one column-major 2-D object array."""
-    out = np.empty((len(rows), len(columns)), dtype=object, order="F")
-    every = bool(columns) and len(rows) == len(columns[0]) \
-        and bool((rows == np.arange(len(rows))).all())
-    for i, col in enumerate(columns):
-        column = col.to_numpy(dtype=object)
-        out[:, i] = column if every else column[rows]
-    return out
-
-
-def _categorical(columns: list[pd.Series]) -> bool:
-    return all(isinstance(c.dtype, pd.CategoricalDtype) for c in columns)
-
-
-def _pair_chunk(t1: list[pd.Series], t2: list[pd.Series], pos1, pos2, chunk: list[int]):
-    """Codes of a few columns of both passes (-1 = no text), column-major, and their texts.
-
-    Categorical columns (keyed files) already hold codes: only their few
-    categories are matched up, no cell is hashed. Other columns are factorised.
-    """
-    cols1 = [t1[j] for j in chunk]
-    cols2 = [t2[j] for j in chunk]
-    shape = (len(pos1), len(chunk))
-    if not _categorical(cols1 + cols2):
-        codes_a, codes_b, uniques = _pair_codes(_grid(cols1, pos1).ravel(order="F"),
-                                                _grid(cols2, pos2).ravel(order="F"))
-        return (codes_a.reshape(shape, order="F"), codes_b.reshape(shape, order="F"), uniques)
-    # One factorisation of all the columns' categories numbers them for the chunk.
-    cats = [c.cat.categories.to_numpy(dtype=object) for c in cols1 + cols2]
-    numbered, uniques = pd.factorize(np.concatenate(cats + [np.empty(0, object)]))
-    ends = np.cumsum([len(c) for c in cats])
-    out = [np.empty(shape, dtype=np.int32, order="F") for _ in range(2)]
-    for k, col in enumerate(cols1 + cols2):
-        # Code -1 (no text) picks the appended -1.
-        remap = np.append(numbered[ends[k] - len(cats[k]):ends[k]], -1).astype(np.int32)
-        side, i = divmod(k, len(chunk))
-        out[side][:, i] = remap[col.cat.codes.to_numpy()[pos2 if side else pos1]]
-    return out[0], out[1], np.asarray(uniques, dtype=object)
-
-
-def _state_grid(state: pd.DataFrame, rows: np.ndarray) -> np.ndarray:
-    """State codes of the listed rows (all columns), column-major."""
-    columns = _columns(state)
-    if _categorical(columns):
-        out = np.empty((len(rows), len(columns)), dtype=np.int8, order="F")
-        words = {KEYED: _K, BLANK: _B, ILLEGIBLE: _I}
-        for j, col in enumerate(columns):
-            lookup = np.array([words.get(w, _N) for w in col.cat.categories] + [_N], np.int8)
-            out[:, j] = lookup[col.cat.codes.to_numpy()[rows]]
-        return out
-    cells = state.to_numpy(dtype=object)
-    if not (len(rows) == len(state) and bool((rows == np.arange(len(rows))).all())):
-        cells = cells[rows]
-    out = np.full(cells.shape, _N, dtype=np.int8, order="F")
-    try:
-        # Comparing with the few state words beats hashing every cell; most cells
-        # are keyed, so the other words are looked for among the rest only.
-        keyed = np.asarray(cells == KEYED, dtype=bool)
-        out[keyed] = _K
-        r, c = np.nonzero(~keyed)
-        if len(r):
-            others = cells[r, c]
-            for word, code in ((BLANK, _B), (ILLEGIBLE, _I)):
-                at = np.asarray(others == word, dtype=bool)
-                out[r[at], c[at]] = code
-    except (TypeError, ValueError):  # a state like pd.NA has no truth value: hash instead
-        codes, uniques = pd.factorize(cells.ravel())
-        lookup = np.array([{KEYED: _K, BLANK: _B, ILLEGIBLE: _I}.get(u, _N) for u in uniques]
-                          + [_N], dtype=np.int8)
-        out[:] = lookup[codes].reshape(cells.shape)
-    return out
-
-
 def _sides(codebook: Codebook, p1: PassData, p2: PassData, forms1, forms2, progress):
     """Both passes as arrays; plus, per column, its distinct texts and their canonical forms.
 
@@ -471,9 +359,9 @@ def _sides(codebook: Codebook, p1: PassData, p2: PassData, forms1, forms2, progr
     # keeping each side's value numbers would take eight bytes.
     same = np.empty((n, m), dtype=bool, order="F")
     gid_of: list[np.ndarray] = [None] * m  # per column: value number by ucode (+ -1)
-    sides[0].state[:] = _state_grid(p1.state, pos1)
-    sides[1].state[:] = _state_grid(p2.state, pos2)
-    text1, text2 = _columns(p1.text), _columns(p2.text)
+    sides[0].state[:] = _codes.state_grid(p1.state, pos1)
+    sides[1].state[:] = _codes.state_grid(p2.state, pos2)
+    text1, text2 = _codes.columns_of(p1.text), _codes.columns_of(p2.text)
     groups: dict[tuple, list[int]] = {}
     for j, var in enumerate(codebook.variables):
         groups.setdefault(_signature(var), []).append(j)
@@ -485,9 +373,9 @@ def _sides(codebook: Codebook, p1: PassData, p2: PassData, forms1, forms2, progr
         # A few columns at a time keeps the copies small; codes wait in ``ucode``
         # until the group's distinct texts are known, then become group codes.
         parts = []
-        for start in range(0, len(cols), _CHUNK):
-            chunk = cols[start:start + _CHUNK]
-            codes_a, codes_b, chunk_uniques = _pair_chunk(text1, text2, pos1, pos2, chunk)
+        for start in range(0, len(cols), _codes.CHUNK):
+            chunk = cols[start:start + _codes.CHUNK]
+            codes_a, codes_b, chunk_uniques = _codes.pair_chunk(text1, text2, pos1, pos2, chunk)
             sides[0].ucode[:, chunk] = codes_a
             sides[1].ucode[:, chunk] = codes_b
             parts.append((chunk, chunk_uniques))
@@ -510,7 +398,7 @@ def _sides(codebook: Codebook, p1: PassData, p2: PassData, forms1, forms2, progr
         missing_ext = np.append(missing, False)
         for chunk, chunk_uniques in parts:
             remap = None if len(parts) == 1 else \
-                np.append(_positions(uniques, chunk_uniques, index), -1).astype(np.int32)
+                np.append(_codes.positions(uniques, chunk_uniques, index), -1).astype(np.int32)
             values = []
             for side in sides:
                 c = side.ucode[:, chunk]
