@@ -56,7 +56,7 @@ class ReasonsEditor(ModalScreen[list[str] | None]):
         Binding("s", "save", "save", id="reasons.save"),
         Binding("escape", "cancel", "cancel", id="reasons.cancel"),
     ]
-    HINT = ("↑↓ mark  ·  a add  ·  x remove  ·  k/j move up/down  ·  s save  ·  Esc cancel\n"
+    HINT = ("↑↓ mark · a add · x remove · k/j move up/down · s save · Esc cancel\n"
             "the digit beside a reason picks it when a decision asks why")
 
     def __init__(self, study, keyer: str, **kwargs):

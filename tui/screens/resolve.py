@@ -51,15 +51,16 @@ class ResolveScreen(Screen):
     """
 
     # Digits for the cell decisions (the numeric keypad, paper in the other hand),
-    # letters for the rest; words kept short so the whole set fits one footer line.
+    # letters for the rest; words kept short so the whole set, with e and Esc,
+    # fits one footer line 120 columns wide.
     BINDINGS = [
         Binding("1", "take_pass(1)", "pass 1", id="resolve.pass-1"),
         Binding("2", "take_pass(2)", "pass 2", id="resolve.pass-2"),
-        Binding("5", "paper_value", "paper value", id="resolve.paper-value"),
+        Binding("5", "paper_value", "paper", id="resolve.paper-value"),
         Binding("0", "blank", "blank", id="resolve.blank"),
         Binding("7", "missing_code", "missing", id="resolve.missing-code"),
         Binding("9", "keep", "keep", id="resolve.keep"),
-        Binding("8", "shift", "shift run", id="resolve.shift"),
+        Binding("8", "shift", "shift", id="resolve.shift"),
         Binding("p", "pair", "pair", id="resolve.pair"),
         Binding("d", "drop", "drop twice-keyed", id="resolve.drop"),
         Binding("c", "confirm", "one pass only", id="resolve.confirm"),
@@ -71,8 +72,8 @@ class ResolveScreen(Screen):
         Binding("pageup", "move(-10)", show=False),
         Binding("f", "filter", "filter", id="resolve.filter"),
         Binding("j", "jump", "jump", id="resolve.jump"),
-        Binding("a", "set_aside", "set aside", id="resolve.set-aside"),
-        Binding("v", "view_set_aside", "aside list", id="resolve.set-aside-list"),
+        Binding("a", "set_aside", "aside", id="resolve.set-aside"),
+        Binding("v", "view_set_aside", "asides", id="resolve.set-aside-list"),
         Binding("e", "edit_reasons", "reasons", id="resolve.reasons"),
         Binding("r", "reload", "reload", id="resolve.reload", show=False),
         Binding("escape", "leave", "home", id="resolve.leave"),
