@@ -322,6 +322,7 @@ def reasons(study) -> list[str]:
     raw = study.get_setting("reasons", None)
     if raw in (None, ""):
         return list(DEFAULT_REASONS)
+    # A list; older studies stored it as JSON text inside the JSON setting.
     found = json.loads(raw) if isinstance(raw, str) else raw
     return [str(r) for r in found]
 
@@ -341,7 +342,7 @@ def set_reasons(study, items: Iterable[str], keyer: str) -> list[str]:
             kept.append(text)
     if not kept:
         raise DecisionError("the list of reasons is empty — give at least one reason.")
-    study.set_setting("reasons", json.dumps(kept, ensure_ascii=False), keyer)
+    study.set_setting("reasons", kept, keyer)  # the store keeps settings as JSON itself
     return kept
 
 
