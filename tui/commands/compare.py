@@ -1,10 +1,13 @@
 """``keyproof compare``: the discrepancies of a study, or of two keyed files.
 
-``keyproof compare STUDY [--out FILE]`` compares a study's two passes;
+``keyproof compare STUDY [--out FILE]`` compares a study's two passes and
+lists what is still open: a discrepancy settled by a decision is counted in
+the summary but no longer listed (a stale one, whose pass changed after its
+decision, is listed again);
 ``keyproof compare FILE1 FILE2 --codebook CB [--out FILE]`` two keyed files
 without a study. The table goes to standard output (its first rows) or, with
 ``--out``, whole to a CSV or XLSX file; the summary goes to standard error.
-Exit status: 0 nothing to look at, 1 discrepancies found, 2 bad input.
+Exit status: 0 nothing (left) to look at, 1 discrepancies open, 2 bad input.
 """
 
 from __future__ import annotations
@@ -49,13 +52,20 @@ def run(args: argparse.Namespace) -> int:
 
     from core.compare import COLUMNS, summarise
 
+    found = table
+    if "_status" in table:  # a study: decisions settle discrepancies
+        table = table[table["_status"] != "settled"]
     public = table[list(COLUMNS)]
     if out is not None:
         _write(public, out)
     else:
         _print(public, max(args.rows, 0))
-    for line in summarise(table).lines():
+    for line in summarise(found).lines():
         sys.stderr.write(line + "\n")
+    if found is not table:
+        stale = int((table["_status"] == "stale").sum())
+        sys.stderr.write(f"settled by decisions: {len(found) - len(table):,}; still open: "
+                         f"{len(table):,}" + (f" ({stale:,} reopened)" if stale else "") + "\n")
     if out is not None:
         sys.stderr.write(f"wrote {len(public):,} rows to {out}\n")
     return 1 if len(table) else 0
@@ -81,6 +91,7 @@ def _say(text: str) -> None:
 
 def _from_study(path: str):
     from core.compare import compare_study
+    from core.resolution import worklist
     from core.store import Study
 
     with Study.open(path, readonly=True) as study:
@@ -88,7 +99,8 @@ def _from_study(path: str):
         large = len(forms) * len(study.codebook) > 2 * LARGE
         if large:
             _say(f"comparing {Path(path).name}: {len(forms):,} forms…")
-        return compare_study(study, _progress_printer(Path(path).name) if large else None)
+        table = compare_study(study, _progress_printer(Path(path).name) if large else None)
+        return worklist(study, table)
 
 
 def _from_files(file1: str, file2: str, codebook_path: str, encoding: str | None):
