@@ -129,7 +129,8 @@ def canonical_series(var: Variable, texts: pd.Series) -> tuple[pd.Series, pd.Ser
         items = texts.tolist()
         if all(isinstance(t, str) or t is None for t in items):
             canon, valid = _canonical_small(var.type, var.format, tuple(items))
-            return (pd.Series(canon, index=texts.index, dtype=object),
+            # No dtype given for the texts: inferred as the column path's are.
+            return (pd.Series(canon, index=texts.index, dtype=None if canon else object),
                     pd.Series(valid, index=texts.index, dtype=bool))
     return _canonical_columns(var.type, var.format, texts)
 
