@@ -2,13 +2,14 @@
 
 Importable and testable without a terminal; never imports Textual. This is
 the public face: callers use the names below; everything else is a helper.
+Names other than the errors load on first use (PEP 562), so a command that
+needs one module does not pay for importing all of them.
 """
 
-from .codebook import Code, Codebook, Variable
-from .codebook_io import CodebookDiff, diff_codebooks, load_codebook
-from .compare import Summary, compare_passes, compare_study, summarise
-from .conditions import Condition, parse_condition
-from .demo import make_demo_study
+from __future__ import annotations
+
+import importlib
+
 from .errors import (
     CodebookError,
     CompareError,
@@ -20,15 +21,54 @@ from .errors import (
     StoreError,
     UsageError,
 )
-from .export import ExportResult  # not `export`: it would hide the core.export module
-from .importer import ImportResult, import_file, read_keyed_file, read_pass_file
-from .journal import AuditResult
-from .passdata import PassData
-from .report import Report, build_report
-from .resolution import apply_decisions_file, verified_table, worklist
-from .screening import Screening, screen
-from .store import FormRecord, Study
-from .verified import Verified
+
+# public name -> the module under core that defines it. Not `export` itself:
+# that name would hide the core.export module.
+_LAZY = {
+    "AuditResult": "journal",
+    "Code": "codebook",
+    "Codebook": "codebook",
+    "CodebookDiff": "codebook_io",
+    "Condition": "conditions",
+    "ExportResult": "export",
+    "FormRecord": "store",
+    "ImportResult": "importer",
+    "PassData": "passdata",
+    "Report": "report",
+    "Screening": "screening",
+    "Study": "store",
+    "Summary": "compare",
+    "Variable": "codebook",
+    "Verified": "verified",
+    "apply_decisions_file": "resolution",
+    "build_report": "report",
+    "compare_passes": "compare",
+    "compare_study": "compare",
+    "diff_codebooks": "codebook_io",
+    "import_file": "importer",
+    "load_codebook": "codebook_io",
+    "make_demo_study": "demo",
+    "parse_condition": "conditions",
+    "read_keyed_file": "importer",
+    "read_pass_file": "importer",
+    "screen": "screening",
+    "summarise": "compare",
+    "verified_table": "resolution",
+    "worklist": "resolution",
+}
+
+
+def __getattr__(name: str):
+    if name in _LAZY:
+        value = getattr(importlib.import_module(f".{_LAZY[name]}", __name__), name)
+        globals()[name] = value  # later lookups no longer come here
+        return value
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+
+
+def __dir__() -> list[str]:
+    return sorted(set(globals()) | set(_LAZY))
+
 
 __all__ = [
     "AuditResult",
