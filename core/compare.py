@@ -100,7 +100,9 @@ def compare_passes(
 
     Returns DESIGN.md's columns plus ``_form1``, ``_form2``, ``_order`` and
     ``_partner``; ``table.attrs["fields_compared"]`` holds the number of
-    fields compared (paired forms × variables). ``progress(done, total)`` is
+    fields compared (paired forms × variables other than the ID, which pairs
+    the forms and so always agrees; the report counts the same way).
+    ``progress(done, total)`` is
     called as variable groups are done.
 
     >>> from core.codebook import Codebook, Variable
@@ -131,7 +133,7 @@ def compare_passes(
     forms = _form_rows(codebook, pass1, pass2, ids1, ids2, dups, set(common))
     table = pd.concat([forms, fields], ignore_index=True) if len(forms) else fields
     table = _finish(table)
-    table.attrs["fields_compared"] = len(common) * len(names)
+    table.attrs["fields_compared"] = len(common) * (len(names) - 1)  # one ID variable
     return table
 
 
@@ -175,11 +177,17 @@ class Summary:
         """Fields the two passes disagree on."""
         return self.by_kind.get("mismatch", 0)
 
+    @property
+    def _fields(self) -> str:
+        n = self.fields_compared
+        return f"{n:,} field{'' if n == 1 else 's'}"
+
     def lines(self) -> list[str]:
         """A few lines for a terminal or a screen."""
         if not self.discrepancies:
-            return [f"{self.fields_compared:,} fields compared; nothing to look at."]
-        out = [f"{self.discrepancies:,} discrepancies in {self.fields_compared:,} fields compared "
+            return [f"{self._fields} compared; nothing to look at."]
+        noun = "discrepancy" if self.discrepancies == 1 else "discrepancies"
+        out = [f"{self.discrepancies:,} {noun} in {self._fields} compared "
                f"({self.rate_per_10000:.1f} per 10,000 fields)."]
         out.append("by kind: " + ", ".join(f"{k} {n:,}" for k, n in self.by_kind.items()))
         if self.by_cause:

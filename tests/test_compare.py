@@ -277,7 +277,8 @@ def test_cli_exit_status_out_file_and_errors(tmp_path, capsys):
     written = pd.read_csv(out, dtype=str, keep_default_na=False)
     assert list(written.columns) == list(COLUMNS)
     assert written[["participant", "variable", "kind"]].values.tolist() == [["2", "q", "mismatch"]]
-    assert "1 discrepancies in 4 fields compared" in capsys.readouterr().err
+    # Counted by hand: 2 paired forms × 1 variable besides the ID (which pairs them).
+    assert "1 discrepancy in 2 fields compared" in capsys.readouterr().err
     assert cli(f1, f2, "--codebook", cb, "--out", tmp_path / "d.xlsx") == 1
     assert list(pd.read_excel(tmp_path / "d.xlsx").columns) == list(COLUMNS)
     f2.write_text("pid,x\n1,1\n")
@@ -302,7 +303,7 @@ def test_run_with_namespace_prints_the_table(tmp_path, capsys):
     assert command.run(args) == 1
     out = capsys.readouterr()
     assert "transposed" in out.out and "mismatch" in out.out
-    assert "1 discrepancies in 2 fields compared" in out.err
+    assert "1 discrepancy in 1 field compared" in out.err  # 1 form × 1 non-ID variable
 
 
 def test_read_pass_file_states_as_passdata_from_texts_gives_them(tmp_path):
