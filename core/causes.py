@@ -153,10 +153,6 @@ def number_cause(a: str, b: str) -> str:
     return ""
 
 
-def _case_space_key(s: pd.Series) -> pd.Series:
-    return s.str.casefold().str.replace(r"\s+", "", regex=True)
-
-
 def classify(
     text1: pd.Series,
     text2: pd.Series,
@@ -182,33 +178,31 @@ def classify(
     ['transposed', 'omitted']
     """
     index = text1.index
-    out = pd.Series("other", index=index, dtype=object)
-    both = keyed1 & keyed2
-    t1 = text1.where(both, "").astype(str)
-    t2 = text2.where(both, "").astype(str)
-    if both.any():
-        case_space = both & (_case_space_key(t1) == _case_space_key(t2))
-        out[case_space] = "case_space"
-        todo = both & ~case_space
-        nums = todo & numeric.astype(bool)
-        if nums.any():
-            # Plain lists: iterating a string-typed Series costs a call per element.
-            got = pd.Series([number_cause(a, b) for a, b in zip(t1[nums].tolist(),
-                                                                t2[nums].tolist(), strict=True)],
-                            index=t1[nums].index, dtype=object)
-            got = got[got != ""]
-            out[got.index] = got
-            todo = todo & ~out.index.isin(got.index)
-        if todo.any():
-            widths = (width if width is not None else pd.Series(0, index=index))[todo]
-            out[todo] = [text_cause(a, b, int(w) or None)
-                         for a, b, w in zip(t1[todo].tolist(), t2[todo].tolist(),
-                                            widths.tolist(), strict=True)]
-    one_side = (keyed1 & absent2) | (keyed2 & absent1)
-    out[one_side] = "omitted"
-    if shift is not None:
-        out[shift.astype(bool)] = "field_shift"
-    return out
+    n = len(index)
+    flags = [np.asarray(x, dtype=bool).tolist()
+             for x in (keyed1, keyed2, absent1, absent2, numeric)]
+    widths = [0] * n if width is None else np.asarray(width, dtype=np.int64).tolist()
+    shifted = [False] * n if shift is None else np.asarray(shift, dtype=bool).tolist()
+    # One plain loop over the disagreements (never over a pass's cells): each
+    # row leaves at its first class, where vectorised string methods would run
+    # every class's work on every row.
+    out = []
+    for a, b, k1, k2, b1, b2, num, w, sh in zip(text1.tolist(), text2.tolist(), *flags,
+                                                  widths, shifted, strict=True):
+        if sh:
+            out.append("field_shift")
+        elif (k1 and b2) or (k2 and b1):
+            out.append("omitted")
+        elif not (k1 and k2):
+            out.append("other")
+        else:
+            a, b = str(a), str(b)
+            if "".join(a.casefold().split()) == "".join(b.casefold().split()):
+                out.append("case_space")
+                continue
+            cause = number_cause(a, b) if num else ""
+            out.append(cause or text_cause(a, b, w or None))
+    return pd.Series(out, index=index, dtype=object)
 
 
 def field_shift_cells(

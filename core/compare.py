@@ -552,8 +552,11 @@ def _gids(side: _Side, gid_of, rows: np.ndarray) -> np.ndarray:
 def _mismatch_causes(variables, a: _Side, b: _Side, rows, cols, text_a, text_b,
                      shift) -> np.ndarray:
     sa, sb = a.state[rows, cols], b.state[rows, cols]
-    text1 = pd.Series(text_a, dtype=object).where(sa == _K, "").astype(str).str.strip()
-    text2 = pd.Series(text_b, dtype=object).where(sb == _K, "").astype(str).str.strip()
+    # Plain lists: one pass over the disagreements, not a string method per step.
+    text1 = pd.Series([str(t).strip() if k else "" for t, k in zip(
+        text_a.tolist(), (sa == _K).tolist(), strict=True)], dtype=object)
+    text2 = pd.Series([str(t).strip() if k else "" for t, k in zip(
+        text_b.tolist(), (sb == _K).tolist(), strict=True)], dtype=object)
     numeric = np.array([v.type in ("integer", "number") for v in variables])[cols]
     width = np.array([v.implied_width or 0 for v in variables])[cols]
     s = lambda x: pd.Series(x)  # noqa: E731
