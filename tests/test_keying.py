@@ -169,6 +169,24 @@ async def test_auto_advance_at_width_and_its_switch(tmp_path):
 
 
 @sync
+async def test_the_issue_burst_lands_the_same_with_auto_advance_on(tmp_path):
+    # Issue 4: "12⏎34⏎⏎5" must land 12, 34, blank, 5 in consecutive fields, exactly
+    # as if typed slowly, even when each of those fields fills up at two characters.
+    cb = Codebook((Variable("pid", "integer", is_id=True),
+                   *(Variable(f"q{i}", "integer", min=10, max=99) for i in range(1, 5))))
+    path = make_study(tmp_path, cb, auto_advance=True)
+    app = make_app(path, mode="key", pass_no=1, keyer="AB")
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("7", "enter")
+        burst(app, ["1", "2", "enter", "3", "4", "enter", "enter", "5"])
+        await settle(pilot)
+        assert app.screen.editor.value == "5"  # being typed in q4, not yet confirmed
+    (form,) = stored(path)
+    assert [(form.texts[f"q{i}"], form.states[f"q{i}"]) for i in (1, 2, 3)] == [
+        ("12", "keyed"), ("34", "keyed"), ("", "blank")]
+
+
+@sync
 async def test_the_participant_id_waits_for_enter_even_at_its_width(tmp_path):
     # The prompt says "then Enter": an ID that moved on by itself would turn the
     # keyer's Enter into a blank first field.
@@ -381,13 +399,14 @@ async def test_review_names_flagged_fields_and_tab_goes_to_the_first(tmp_path):
         assert (model.mode, model.names[model.cursor]) == (FIELD_MODE, "age")
 
 
+@pytest.mark.parametrize("auto_advance", [True, False])
 @pytest.mark.parametrize("row", [5, 9])  # children keyed; age blank on paper
 @sync
-async def test_a_demo_form_keyed_from_its_paper_with_auto_advance(tmp_path, row):
+async def test_a_demo_form_keyed_from_its_paper_with_auto_advance(tmp_path, row, auto_advance):
     # The demo's codebook and its paper truth (fixtures/demo), keyed as a keyer
-    # would with auto-advance on: no Enter after a value that fills its field's
-    # width, a second Enter where the value breaks the codebook (core.values
-    # decides which), nothing typed for a field whose applies_if is false.
+    # with the usual habit does, auto-advance on or off: each value then Enter,
+    # a second Enter where the value breaks the codebook (core.values decides
+    # which), nothing typed for a field whose applies_if is false.
     from core.codebook_io import load_codebook
     from core.conditions import parse_condition
     from core.values import parse
@@ -395,7 +414,7 @@ async def test_a_demo_form_keyed_from_its_paper_with_auto_advance(tmp_path, row)
     root = Path(__file__).resolve().parent.parent / "fixtures" / "demo"
     cb = load_codebook(root / "codebook.csv")
     paper = pd.read_csv(root / "paper.csv", dtype=str, keep_default_na=False).iloc[row]
-    path = make_study(tmp_path, cb, auto_advance=True)
+    path = make_study(tmp_path, cb, auto_advance=auto_advance)
     keys, typed, expected = [], {}, {}
     for var in cb:
         value = paper[var.name]
@@ -409,10 +428,9 @@ async def test_a_demo_form_keyed_from_its_paper_with_auto_advance(tmp_path, row)
         parsed = parse(var, value)
         if parsed.value is not None:
             typed[var.name] = parsed.value
-        keys += list(value)
-        width = var.implied_width
-        # The participant ID always takes Enter; other fields move on when full.
-        keys += [] if width and len(value) >= width and not var.is_id else ["enter"]
+        # The same keys whether auto-advance is on or off: the Enter a keyer
+        # presses after a field that moved on by itself is taken as that field's.
+        keys += list(value) + ["enter"]
         keys += ["enter"] if parsed.problem else []
     app = make_app(path, mode="key", pass_no=1, keyer="AB")
     async with app.run_test(size=SIZE) as pilot:

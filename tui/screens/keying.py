@@ -42,6 +42,8 @@ class KeyingScreen(Screen):
         self.can_leave = can_leave
         """True when opened from home: Esc at the participant-ID prompt goes back there."""
         self._flags: dict[int, str] = {}
+        self._absorb_enter = False
+        """True right after auto-advance moved on: the keyer's habitual Enter is absorbed."""
         self._shown: tuple[str, int | None, int | None] | None = None
 
     def compose(self) -> ComposeResult:
@@ -85,14 +87,24 @@ class KeyingScreen(Screen):
     def editor_changed(self, text: str) -> None:
         m = self.model
         m.text_changed(text)
+        self._absorb_enter = False
         # Only fields auto-advance. The participant ID always takes Enter, as its
         # prompt says: a keyer's habitual Enter after an ID that moved on by itself
         # would otherwise record the form's first field as blank on paper.
         if m.mode == FIELD_MODE and text and m.reaches_width(text):
             self.editor_confirm(text)
+            # Auto-advance stands in for the keyer's Enter, so the Enter a keyer
+            # presses out of habit right after is taken as that one: the keys for a
+            # form are the same with auto-advance on or off (value ⏎, and a second ⏎
+            # to keep a warned value). Otherwise it would record the next field
+            # blank and shift every later value by one field.
+            self._absorb_enter = True
 
     def editor_confirm(self, text: str) -> None:
         m = self.model
+        if self._absorb_enter:
+            self._absorb_enter = False
+            return
         if m.mode == ID_MODE:
             m.submit_id(text)
         elif m.mode == FIELD_MODE:
@@ -108,6 +120,7 @@ class KeyingScreen(Screen):
     def editor_tab(self, text: str) -> None:
         """Tab confirms like Enter; in the review it goes to the first flagged field."""
         if self.model.mode == REVIEW_MODE:
+            self._absorb_enter = False
             self.model.next_flagged()
             self._sync(reload=True)
         else:
@@ -121,6 +134,7 @@ class KeyingScreen(Screen):
             self.field_list.scroll_page_down(animate=False)
 
     def editor_back(self) -> None:
+        self._absorb_enter = False
         m = self.model
         if m.mode == CHOOSE_MODE:
             m.cancel()
@@ -129,6 +143,7 @@ class KeyingScreen(Screen):
         self._sync(reload=True)
 
     def editor_illegible(self) -> None:
+        self._absorb_enter = False
         m = self.model
         if m.mode == FIELD_MODE:
             m.mark_illegible()
@@ -138,6 +153,7 @@ class KeyingScreen(Screen):
             self._sync()
 
     def editor_escape(self) -> None:
+        self._absorb_enter = False
         m = self.model
         if m.mode in (FIELD_MODE, REVIEW_MODE):
             left = m.form_id
