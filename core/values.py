@@ -45,6 +45,8 @@ STATES = (KEYED, BLANK, ILLEGIBLE)
 ISO_DATE = "%Y-%m-%d"
 
 _INTEGER = re.compile(r"^[+-]?\d+$")
+#: An integer already in canonical form: what ``_INTEGER`` accepts with no rewriting.
+_PLAIN_INTEGER = re.compile(r"0|-?[1-9]\d*")
 _NUMBER = re.compile(r"^[+-]?(\d+([.,]\d*)?|[.,]\d+)$")
 
 # Problems a value can have, as comparison kinds (DESIGN.md).
@@ -173,10 +175,21 @@ def _canonical_columns(type_: str, fmt: str, texts: pd.Series) -> tuple[pd.Serie
     if type_ == "string":
         return s, pd.Series(True, index=texts.index)
     if type_ == "integer":
-        ok = s.str.fullmatch(_INTEGER.pattern).fillna(False).astype(bool)
-        canon = s.where(~ok, s.str.replace(r"^\+", "", regex=True)
-                        .str.replace(r"^(-?)0+(?=\d)", r"\1", regex=True)
-                        .str.replace(r"^-0$", "0", regex=True))
+        # Most keyed integers are already canonical (no sign, no leading zero):
+        # one test settles them, and only the rest go through the rewriting.
+        plain = s.str.fullmatch(_PLAIN_INTEGER.pattern).fillna(False).to_numpy(dtype=bool)
+        ok_arr, canon_arr = plain.copy(), s.to_numpy(dtype=object, copy=True)
+        if not plain.all():
+            r = s[~plain]
+            ok_r = r.str.fullmatch(_INTEGER.pattern).fillna(False).astype(bool)
+            canon_r = r.where(~ok_r, r.str.replace(r"^\+", "", regex=True)
+                              .str.replace(r"^(-?)0+(?=\d)", r"\1", regex=True)
+                              .str.replace(r"^-0$", "0", regex=True))
+            ok_arr[~plain] = ok_r.to_numpy(dtype=bool)
+            canon_arr[~plain] = canon_r.to_numpy(dtype=object)
+        ok = pd.Series(ok_arr, index=s.index)
+        # dtype inferred, as string methods give it: str when any text is present.
+        canon = pd.Series(canon_arr, index=s.index, dtype=None if len(s) else object)
     elif type_ == "number":
         ok = s.str.fullmatch(_NUMBER.pattern).fillna(False).astype(bool)
         numbers = pd.to_numeric(s.where(ok).str.replace(",", ".", regex=False), errors="coerce")
