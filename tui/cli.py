@@ -122,30 +122,8 @@ def main(argv: list[str] | None = None) -> int:
         return 0
 
 
-#: Commands that open the app: their exit keeps the interpreter's full teardown.
-_INTERACTIVE = {"demo", "home", "key", "resolve"}
-
-
 def entry() -> None:
-    """The console script: run, flush, and leave without tearing down large frames.
-
-    Freeing the frames a big comparison built costs a noticeable part of its
-    time at exit; every file is closed and written by then (atomic writes), so
-    once stdout and stderr are flushed nothing is left for teardown to do. The
-    app's commands keep the ordinary exit, and ``main()`` (what tests call)
-    never skips it.
-    """
-    status = main()
-    if sys.argv[1:2] and sys.argv[1] not in _INTERACTIVE:
-        import os
-
-        try:
-            sys.stdout.flush()
-        except BrokenPipeError:
-            pass
-        sys.stderr.flush()
-        os._exit(status)
-    sys.exit(status)
+    sys.exit(main())
 
 
 if __name__ == "__main__":
