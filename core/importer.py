@@ -159,7 +159,7 @@ def read_pass_file(
     # of an object pointer, and lets the comparison skip hashing the cells again.
     text, state = {}, {}
     for name in texts.columns:
-        codes, uniques = _factorize_texts(texts[name].to_numpy(dtype=object))
+        codes, uniques = pd.factorize(texts[name].to_numpy(dtype=object))
         filled = np.fromiter((bool(u.strip()) for u in uniques), bool, len(uniques))
         text[name] = pd.Categorical.from_codes(codes, pd.Index(uniques, dtype=object))
         state[name] = pd.Categorical.from_codes(filled[codes].view(np.int8), _STATE_WORDS)
@@ -170,28 +170,6 @@ def read_pass_file(
     keyers = pd.Series(keyer, index=texts.index, dtype="string")
     labels = (f"{Path(path).name} row " + texts.index.astype(str)).astype("string")
     return PassData(pass_no, texts, state, keyers, pd.Series(labels, index=texts.index))
-
-
-def _factorize_texts(cells: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """``pd.factorize`` of a column whose cells are all ``str`` (as the readers give them).
-
-    pandas' string hash table, used directly, skips ``pd.factorize``'s scan
-    that first checks every cell is a string (about a third of its time on a
-    keyed column); anything unexpected falls back to ``pd.factorize``.
-
-    >>> codes, uniques = _factorize_texts(np.array(["3", "", "3"], dtype=object))
-    >>> codes.tolist(), uniques.tolist()
-    ([0, 1, 0], ['3', ''])
-    """
-    try:
-        from pandas._libs.hashtable import StringHashTable
-
-        uniques, codes = StringHashTable(min(len(cells), 1024)).factorize(cells)
-        if (codes < 0).any():  # a cell that is not a str: leave it to pd.factorize
-            raise TypeError
-    except (ImportError, TypeError, ValueError, AttributeError):
-        codes, uniques = pd.factorize(cells)
-    return np.asarray(codes), np.asarray(uniques, dtype=object)
 
 
 #: The states a keyed file can give, as ``read_pass_file``'s categories (code 0 blank, 1 keyed).
