@@ -34,13 +34,12 @@ import zipfile
 from dataclasses import dataclass
 from pathlib import Path
 
-import numpy as np
 import pandas as pd
 
 from .codebook import Codebook
 from .errors import ImportFileError, UsageError
 from .passdata import PassData
-from .values import BLANK, ISO_DATE, KEYED
+from .values import ISO_DATE
 
 CSV_SUFFIXES = (".csv", ".txt", ".tsv")
 XLSX_SUFFIXES = (".xlsx", ".xlsm")
@@ -143,8 +142,7 @@ def read_pass_file(
     Rows are forms, indexed and labelled by their spreadsheet row
     (``"pass1.csv row 14"``); an empty cell is blank on paper. The reader's
     notes are appended to ``notes`` when a list is given. The text and state
-    columns are categorical (same values as ``PassData.from_texts`` gives, a
-    fraction of the memory).
+    columns are categorical (see ``PassData.from_texts``).
 
     >>> p = read_pass_file("pass1.csv", codebook, 1)  # doctest: +SKIP
     >>> p.label.iloc[0]  # doctest: +SKIP
@@ -153,27 +151,7 @@ def read_pass_file(
     texts, found = read_keyed_file(path, codebook, encoding)
     if notes is not None:
         notes.extend(found)
-    # As PassData.from_texts, column by column: a column's distinct texts are
-    # tested for blankness once. Both tables are categorical (the keyed texts as
-    # they are, the states as words), which holds a small code per cell instead
-    # of an object pointer, and lets the comparison skip hashing the cells again.
-    text, state = {}, {}
-    for name in texts.columns:
-        codes, uniques = pd.factorize(texts[name].to_numpy(dtype=object))
-        filled = np.fromiter((bool(u.strip()) for u in uniques), bool, len(uniques))
-        text[name] = pd.Categorical.from_codes(codes, pd.Index(uniques, dtype=object))
-        state[name] = pd.Categorical.from_codes(filled[codes].view(np.int8), _STATE_WORDS)
-    index = texts.index
-    del texts
-    texts = pd.DataFrame(text, index=index, copy=False)
-    state = pd.DataFrame(state, index=index, copy=False)
-    keyers = pd.Series(keyer, index=texts.index, dtype="string")
-    labels = (f"{Path(path).name} row " + texts.index.astype(str)).astype("string")
-    return PassData(pass_no, texts, state, keyers, pd.Series(labels, index=texts.index))
-
-
-#: The states a keyed file can give, as ``read_pass_file``'s categories (code 0 blank, 1 keyed).
-_STATE_WORDS = pd.Index([BLANK, KEYED], dtype=object)
+    return PassData.from_texts(pass_no, texts, keyer, label_prefix=f"{Path(path).name} row")
 
 
 def import_file(study, path: str | Path, pass_no: int, keyer: str,

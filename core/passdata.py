@@ -15,6 +15,9 @@ import pandas as pd
 
 from .values import BLANK, KEYED
 
+#: A keyed file's states, as categories (code 0 blank, 1 keyed).
+_STATE_WORDS = pd.Index([BLANK, KEYED], dtype=object)
+
 
 @dataclass(frozen=True)
 class PassData:
@@ -42,25 +45,29 @@ class PassData:
     ) -> PassData:
         """Build a pass from plain texts, where an empty cell means blank on paper.
 
+        Both tables come back categorical, column by column: a column's distinct
+        texts are tested for blankness once (never a Python call per cell), and
+        each cell holds a small code instead of an object pointer, which also
+        spares the comparison hashing the cells again. Labels read
+        ``"<label_prefix> <index>"``.
+
         >>> import pandas as pd
         >>> p = PassData.from_texts(1, pd.DataFrame({"id": ["1", "2"], "q1": ["3", ""]}))
         >>> list(p.state["q1"])
         ['keyed', 'blank']
         """
-        text = texts.fillna("").astype(object)
-        # Blankness is worked out once per distinct text of a column (keyed
-        # columns hold few distinct texts), never with a Python call per cell.
-        states = {}
-        for name in text.columns:
-            codes, uniques = pd.factorize(text[name], use_na_sentinel=False)
-            blank = np.fromiter((not str(u).strip() for u in uniques), bool, len(uniques))
-            states[name] = np.where(blank[codes], BLANK, KEYED)
-        state = pd.DataFrame(states, index=text.index, columns=text.columns, dtype=object)
-        keyers = pd.Series(keyer, index=text.index, dtype="string")
-        labels = pd.Series(
-            [f"{label_prefix} {i}" for i in text.index], index=text.index, dtype="string"
-        )
-        return cls(pass_no, text, state, keyers, labels)
+        text, state = {}, {}
+        for name in texts.columns:
+            codes, uniques = pd.factorize(texts[name].fillna("").to_numpy(dtype=object))
+            filled = np.fromiter((bool(str(u).strip()) for u in uniques), bool, len(uniques))
+            text[name] = pd.Categorical.from_codes(codes, pd.Index(uniques, dtype=object))
+            state[name] = pd.Categorical.from_codes(filled[codes].view(np.int8), _STATE_WORDS)
+        index = texts.index
+        text = pd.DataFrame(text, index=index, columns=texts.columns, copy=False)
+        state = pd.DataFrame(state, index=index, columns=texts.columns, copy=False)
+        keyers = pd.Series(keyer, index=index, dtype="string")
+        labels = (f"{label_prefix} " + index.astype(str)).astype("string")
+        return cls(pass_no, text, state, keyers, pd.Series(labels, index=index))
 
     @property
     def forms(self) -> int:

@@ -762,18 +762,13 @@ ProgressFn = Callable[[int, int], None]
 
 
 def _natural_order(ids: pd.Index) -> list[int]:
-    """Positions of ``ids`` in natural order (2 before 10; texts after numbers)."""
-    import re
-
+    """Positions of ``ids`` in natural order, as the comparison sorts them."""
     numbers = pd.to_numeric(pd.Series(ids, dtype=object), errors="coerce")
     if len(ids) and numbers.notna().all() and (numbers % 1 == 0).all():
         return np.argsort(numbers.to_numpy(), kind="stable").tolist()  # the usual all-number IDs
+    from .compare import natural_key
 
-    def key(text: str):
-        parts = re.split(r"(\d+)", str(text))
-        return [(0, int(p), "") if p.isdigit() else (1, 0, p) for p in parts if p]
-
-    return sorted(range(len(ids)), key=lambda i: key(ids[i]))
+    return sorted(range(len(ids)), key=lambda i: natural_key(str(ids[i])))
 
 
 # --------------------------------------------------------------------------- file and table
