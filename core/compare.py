@@ -343,13 +343,38 @@ class _Side:
 
     state: np.ndarray  # int8 state code
     ucode: np.ndarray  # the cell's text among its variable group's distinct texts; -1 none
-    valid: np.ndarray
-    problem: np.ndarray  # 0, or 2 out_of_range, 3 not_in_codes
-    missing: np.ndarray  # a declared missing code
+
+
+@dataclass
+class _Rules:
+    """Per column, tables indexed by a cell's ``ucode`` (the last entry is for -1, no text).
+
+    Columns of one variable group share their tables. Keeping what the value
+    rules say per distinct text, instead of per cell, spares a full copy of
+    both passes for each table; cells are looked up where they are needed.
+    """
+
+    texts: list[np.ndarray]  # the text keyed (None for -1)
+    canon: list[np.ndarray]  # its canonical value (None for -1)
+    gid: list[np.ndarray]  # value number, comparable across variables (-1 for -1)
+    agreed_kind: list[np.ndarray | None]  # int8 kind code of a value alone; None: all fit
+    missing: list[np.ndarray]  # a declared missing code
+
+    def at(self, table: str, side: _Side, rows: np.ndarray, cols: np.ndarray,
+           dtype=object) -> np.ndarray:
+        """The ``table`` entries of the listed cells of ``side``, one variable at a time."""
+        tables = getattr(self, table)
+        codes = side.ucode[rows, cols]
+        out = np.zeros(len(rows), dtype=dtype)
+        for j in np.unique(cols).tolist():
+            if tables[j] is not None:  # None: an all-zero table
+                at = cols == j
+                out[at] = tables[j][codes[at]]
+        return out
 
 
 def _sides(codebook: Codebook, p1: PassData, p2: PassData, forms1, forms2, progress):
-    """Both passes as arrays; plus, per column, its distinct texts and their canonical forms.
+    """Both passes as arrays, whether their values are equal, and the per-column tables.
 
     The cells of each group of variables with the same rules are factorised
     together (pass 2 only where it differs from pass 1), so the value rules
@@ -360,21 +385,18 @@ def _sides(codebook: Codebook, p1: PassData, p2: PassData, forms1, forms2, progr
     n, m = len(forms1), len(names)
     pos1, pos2 = p1.text.index.get_indexer(forms1), p2.text.index.get_indexer(forms2)
     # Column-major, since they are filled one group of columns at a time.
-    sides = [_Side(*(np.empty((n, m), dtype, order="F")
-                     for dtype in (np.int8, np.int32, bool, np.int8, bool)))
+    sides = [_Side(np.empty((n, m), np.int8, order="F"), np.empty((n, m), np.int32, order="F"))
              for _ in range(2)]
     # Whether the two passes' canonical values are equal: a bool per cell, where
     # keeping each side's value numbers would take eight bytes.
     same = np.empty((n, m), dtype=bool, order="F")
-    gid_of: list[np.ndarray] = [None] * m  # per column: value number by ucode (+ -1)
+    rules = _Rules(*([None] * m for _ in range(5)))
     sides[0].state[:] = _codes.state_grid(p1.state, pos1)
     sides[1].state[:] = _codes.state_grid(p2.state, pos2)
     text1, text2 = _codes.columns_of(p1.text), _codes.columns_of(p2.text)
     groups: dict[tuple, list[int]] = {}
     for j, var in enumerate(codebook.variables):
         groups.setdefault(_signature(var), []).append(j)
-    texts_of: list[np.ndarray] = [None] * m  # per column: distinct texts by ucode (+ None)
-    canon_of: list[np.ndarray] = [None] * m  # per column: canonical text by ucode (+ None)
     global_ids: dict[str, int] = {}
     for done, cols in enumerate(groups.values(), start=1):
         var = codebook.variables[cols[0]]
@@ -401,48 +423,31 @@ def _sides(codebook: Codebook, p1: PassData, p2: PassData, forms1, forms2, progr
         # Index -1 (no text at all) picks the appended last element.
         gid = np.array([global_ids.setdefault(c, len(global_ids)) for c in canon_arr] + [-1],
                        dtype=np.int32)
-        valid_ext = np.append(valid.to_numpy(dtype=bool), True)
-        problem_ext = np.append(problem, 0).astype(np.int8)
+        kind = np.where(valid.to_numpy(dtype=bool), problem, _KIND_CODE["invalid_type"])
+        kind_ext = np.append(kind, 0).astype(np.int8) if kind.any() else None
         missing_ext = np.append(missing, False)
         for chunk, chunk_uniques in parts:
-            remap = None if len(parts) == 1 else \
-                np.append(_codes.positions(uniques, chunk_uniques, index), -1).astype(np.int32)
-            values = []
-            for side in sides:
-                c = side.ucode[:, chunk]
-                if remap is not None:
-                    c = remap[c]
-                    side.ucode[:, chunk] = c
-                values.append(gid[c])
-                side.valid[:, chunk] = valid_ext[c]
-                side.problem[:, chunk] = problem_ext[c]
-                side.missing[:, chunk] = missing_ext[c]
-            same[:, chunk] = values[0] == values[1]
+            if len(parts) > 1:
+                remap = np.append(_codes.positions(uniques, chunk_uniques, index), -1)
+                for side in sides:
+                    side.ucode[:, chunk] = remap.astype(np.int32)[side.ucode[:, chunk]]
+            ca, cb = sides[0].ucode[:, chunk], sides[1].ucode[:, chunk]
+            # Equal codes are equal values; only the other cells need their value numbers.
+            eq = ca == cb
+            r, c = np.nonzero(~eq)
+            eq[r, c] = gid[ca[r, c]] == gid[cb[r, c]]
+            same[:, chunk] = eq
         texts_ext = np.append(uniques.astype(object), None)
         canon_ext = np.append(canon_arr, None)
         for j in cols:
-            texts_of[j] = texts_ext
-            canon_of[j] = canon_ext
-            gid_of[j] = gid
+            rules.texts[j], rules.canon[j], rules.gid[j] = texts_ext, canon_ext, gid
+            rules.agreed_kind[j], rules.missing[j] = kind_ext, missing_ext
         if progress:
             progress(done, len(groups))
-    return sides, same, texts_of, canon_of, gid_of
+    return sides, same, rules
 
 
-def _cells(side: _Side, lookup: list[np.ndarray], rows: np.ndarray, cols: np.ndarray) -> np.ndarray:
-    """Texts (or canonical texts) of the listed cells, one variable at a time."""
-    out = np.empty(len(rows), dtype=object)
-    for j in np.unique(cols):
-        at = cols == j
-        out[at] = lookup[j][side.ucode[rows[at], j]]
-    return out
-
-
-def _canon_column(side: _Side, canon_of, j: int) -> np.ndarray:
-    return canon_of[j][side.ucode[:, j]]
-
-
-def _conditions(codebook: Codebook, side: _Side, canon_of) -> np.ndarray:
+def _conditions(codebook: Codebook, side: _Side, rules: _Rules) -> np.ndarray:
     """Per cell: does its variable apply on this form (True where no ``applies_if``)."""
     n, m = side.state.shape
     out = np.ones((n, m), dtype=bool)
@@ -452,7 +457,7 @@ def _conditions(codebook: Codebook, side: _Side, canon_of) -> np.ndarray:
             continue
         try:
             cond = parse_condition(var.applies_if)
-            frame = pd.DataFrame({name: _canon_column(side, canon_of, position[name])
+            frame = pd.DataFrame({name: rules.canon[position[name]][side.ucode[:, position[name]]]
                                   for name in cond.names})
             out[:, j] = cond.evaluate(frame).to_numpy(dtype=bool)
         except (ValueError, KeyError) as exc:
@@ -465,11 +470,10 @@ def _compare_fields(codebook, p1, p2, forms1, forms2, progress) -> pd.DataFrame:
     variables = codebook.variables
     if len(forms1) == 0:
         return _field_frame([], [], [], [], [], [], [], [], [], [])
-    (a, b), same, texts_of, canon_of, gid_of = _sides(codebook, p1, p2, forms1, forms2,
-                                                      progress)
+    (a, b), same, rules = _sides(codebook, p1, p2, forms1, forms2, progress)
     required = np.array([v.required for v in variables], dtype=bool)
     conditional = np.array([bool(v.applies_if.strip()) for v in variables], dtype=bool)
-    cond_a, cond_b = _conditions(codebook, a, canon_of), _conditions(codebook, b, canon_of)
+    cond_a, cond_b = _conditions(codebook, a, rules), _conditions(codebook, b, rules)
 
     keyed_a, keyed_b = a.state == _K, b.state == _K
     differ = (a.state != b.state) | (keyed_a & keyed_b & ~same)
@@ -478,27 +482,35 @@ def _compare_fields(codebook, p1, p2, forms1, forms2, progress) -> pd.DataFrame:
     empty_agreed = ~differ & ((a.state == _B) | (a.state == _I))
     kind = np.zeros(differ.shape, dtype=np.int8)
     kind[empty_agreed & required & ~conditional] = _KIND_CODE["blank"]
-    rule = agreed & a.valid & (a.problem > 0)
-    kind[rule] = a.problem[rule]
-    kind[agreed & ~a.valid] = _KIND_CODE["invalid_type"]
-    not_app = (agreed & ~a.missing & ~cond_a & ~cond_b) \
-        | (empty_agreed & required & conditional & cond_a & cond_b)
-    kind[not_app] = _KIND_CODE["not_applicable"]
+    # What an agreed value breaks on its own (invalid_type, out_of_range,
+    # not_in_codes): looked up only in columns where some distinct text breaks a rule.
+    for j, table in enumerate(rules.agreed_kind):
+        if table is not None:
+            got = table[a.ucode[:, j]]
+            at = agreed[:, j] & (got > 0)
+            kind[at, j] = got[at]
+    # not_applicable needs an applies_if (elsewhere the condition is always true).
+    for j in np.flatnonzero(conditional).tolist():
+        missing = rules.missing[j][a.ucode[:, j]]
+        ca, cb = cond_a[:, j], cond_b[:, j]
+        not_app = (agreed[:, j] & ~missing & ~ca & ~cb) \
+            | (empty_agreed[:, j] & required[j] & ca & cb)
+        kind[not_app, j] = _KIND_CODE["not_applicable"]
     kind[differ] = _KIND_CODE["mismatch"]
 
     rows, cols = np.nonzero(kind)
     k = kind[rows, cols]
-    text_a, text_b = _cells(a, texts_of, rows, cols), _cells(b, texts_of, rows, cols)
+    text_a, text_b = rules.at("texts", a, rows, cols), rules.at("texts", b, rows, cols)
     shown1 = _shown(text_a, a.state[rows, cols])
     shown2 = _shown(text_b, b.state[rows, cols])
     is_mis = k == _KIND_CODE["mismatch"]
     cause = np.full(len(rows), "", dtype=object)
     if is_mis.any():
-        shift = _shift_cells(a, b, differ, gid_of)
+        shift = _shift_cells(a, b, differ, rules.gid)
         cause[is_mis] = _mismatch_causes(variables, a, b, rows[is_mis], cols[is_mis],
                                          text_a[is_mis], text_b[is_mis], shift)
-    side_a = _side_problems(a, cond_a, required, rows, cols)
-    side_b = _side_problems(b, cond_b, required, rows, cols)
+    side_a = _side_problems(a, rules, cond_a, required, rows, cols)
+    side_b = _side_problems(b, rules, cond_b, required, rows, cols)
     allowed = {j: f"{variables[j].name} allows {allowed_text(variables[j])}"
                for j in np.unique(cols).tolist()}
     detail = [_detail(variables[j], allowed[j], kk, pa, pb, ca, cb, st)
@@ -566,18 +578,17 @@ def _mismatch_causes(variables, a: _Side, b: _Side, rows, cols, text_a, text_b,
     return got.to_numpy(dtype=object)
 
 
-def _side_problems(side: _Side, cond, required, rows, cols) -> np.ndarray:
+def _side_problems(side: _Side, rules: _Rules, cond, required, rows, cols) -> np.ndarray:
     """Per listed cell, the kind code of what this pass's value alone breaks (0 = fits)."""
     st = side.state[rows, cols]
     keyed = st == _K
     out = np.zeros(len(rows), dtype=np.int8)
     c = cond[rows, cols]
     out[(st == _B) & required[cols] & c] = _KIND_CODE["blank"]
-    prob = side.problem[rows, cols]
-    rule = keyed & side.valid[rows, cols] & (prob > 0)
-    out[rule] = prob[rule]
-    out[keyed & ~side.valid[rows, cols]] = _KIND_CODE["invalid_type"]
-    out[keyed & ~c & ~side.missing[rows, cols]] = _KIND_CODE["not_applicable"]
+    got = rules.at("agreed_kind", side, rows, cols, np.int8)
+    rule = keyed & (got > 0)
+    out[rule] = got[rule]
+    out[keyed & ~c & ~rules.at("missing", side, rows, cols, bool)] = _KIND_CODE["not_applicable"]
     return out
 
 
