@@ -17,8 +17,9 @@ never mapped.
 Trade-off: XLSX files are read with openpyxl cell by cell (it has no column
 reader). A CSV file with no quote character and one kind of line end (the
 usual export) is checked line by line (empty, short and overlong rows, as
-below) and split by pandas' C reader, several times faster than the ``csv``
-module and sharing one string among equal cells of a column; any other CSV
+below) and split by pyarrow's CSV reader into categorical columns (each
+column's distinct texts numbered once, see ``core.csv_columns``), many times
+faster than the ``csv`` module; any other CSV
 file goes through the ``csv`` module, which handles quoted separators and
 line breaks inside cells. Both give the same rows, notes and errors.
 """
@@ -37,6 +38,7 @@ from pathlib import Path
 import pandas as pd
 
 from .codebook import Codebook
+from .csv_columns import categorical_columns
 from .errors import ImportFileError, UsageError
 from .passdata import PassData
 from .values import ISO_DATE
@@ -305,8 +307,9 @@ def _read_plain_csv(name: str, text: str, delimiter: str, notes: list[str]):
     """``_read_csv`` for a file with no quotes and ``\\n`` line ends: the same rows and notes.
 
     Lines are checked one by one (a row each: empty, short, too long); the
-    cells are then split by ``pandas.read_csv``'s C reader, which also shares
-    one string object among equal cells of a column (light on memory).
+    cells are then split into categorical columns by pyarrow's CSV reader
+    (``core.csv_columns``), which numbers each column's distinct texts as it
+    goes, so they are never hashed again.
     """
     lines = text.split("\n")
     if lines[-1] == "":
@@ -331,21 +334,15 @@ def _read_plain_csv(name: str, text: str, delimiter: str, notes: list[str]):
             )
         if cells < width:
             short.append(number)
+            line += delimiter * (width - cells)  # the cells a short row lacks, empty
         kept.append(line)
         numbers.append(number)
     _row_notes(name, short, empty, notes)
     if not kept:
         return header, pd.DataFrame(columns=range(width), dtype=object), numbers, notes
     del lines
-    # UTF-8 bytes: a StringIO of the text would hold four bytes a character.
-    frame = pd.read_csv(
-        io.BytesIO("\n".join(kept).encode("utf-8")), sep=delimiter, encoding="utf-8", header=None, names=range(width),
-        dtype=object, na_filter=False, keep_default_na=False, skip_blank_lines=False,
-        quoting=csv.QUOTE_NONE, engine="c",
-    )
-    if short:
-        frame = frame.fillna("")  # the cells a short row lacks
-    return header, frame, numbers, notes
+    return header, categorical_columns("\n".join(kept).encode("utf-8"), width, delimiter), \
+        numbers, notes
 
 
 # --- XLSX --------------------------------------------------------------------------------------

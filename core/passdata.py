@@ -48,7 +48,8 @@ class PassData:
         Both tables come back categorical, column by column: a column's distinct
         texts are tested for blankness once (never a Python call per cell), and
         each cell holds a small code instead of an object pointer, which also
-        spares the comparison hashing the cells again. Labels read
+        spares the comparison hashing the cells again. A categorical column
+        of texts is taken as it is (its categories must be ``str``). Labels read
         ``"<label_prefix> <index>"``.
 
         >>> import pandas as pd
@@ -58,7 +59,13 @@ class PassData:
         """
         text, state = {}, {}
         for name in texts.columns:
-            codes, uniques = pd.factorize(texts[name].fillna("").to_numpy(dtype=object))
+            column = texts[name]
+            if isinstance(column.dtype, pd.CategoricalDtype) and not column.hasnans:
+                # Already numbered (a plain CSV file, see core.csv_columns).
+                codes = column.cat.codes.to_numpy()
+                uniques = column.cat.categories.to_numpy(dtype=object)
+            else:
+                codes, uniques = pd.factorize(column.fillna("").to_numpy(dtype=object))
             filled = np.fromiter((bool(str(u).strip()) for u in uniques), bool, len(uniques))
             text[name] = pd.Categorical.from_codes(codes, pd.Index(uniques, dtype=object))
             state[name] = pd.Categorical.from_codes(filled[codes].view(np.int8), _STATE_WORDS)
