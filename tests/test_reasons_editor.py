@@ -152,3 +152,40 @@ async def test_partner_line_names_the_partner_id_keyed_in_the_other_pass(tmp_pat
             detail = str(screen.query_one("#resolve-detail").content)
             assert line in detail, detail
             assert "suggested partner: form" not in detail  # no bare form serial
+
+
+@sync
+async def test_reword_keeps_the_place_and_earlier_decisions_keep_their_words(tmp_path):
+    path = small_study(tmp_path)
+    with Study.open(path, readonly=True) as study:
+        start = reasons(study)
+    # Expected by hand: the second reason in new words, in the same place.
+    expected = [start[0], "checked against the original form", *start[2:]]
+    app = make_app(path, mode="resolve", keyer="LM")
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        await pilot.press("1", "2")  # take pass 1 for the first item, with reason 2
+        await settle(app, pilot)
+        await pilot.press("e")
+        editor = app.screen
+        assert isinstance(editor, ReasonsEditor)
+        await pilot.press("down", "r")
+        dialog = app.screen
+        assert isinstance(dialog, ValueDialog)
+        assert dialog.query_one("#value-text").value == start[1]  # starts from the old words
+        await pilot.press(*["backspace"] * len(start[1]))
+        await type_text(pilot, "checked against the original form")
+        await pilot.press("enter")
+        assert app.screen is editor and editor.items == expected
+        # Rewording into another reason's words would list it twice: refused.
+        await pilot.press("down", "r", *["backspace"] * len(start[2]))
+        await type_text(pilot, start[0])
+        await pilot.press("enter")
+        assert editor.items == expected
+        assert "already in the list" in str(editor.query_one("#reasons-message").render())
+        await pilot.press("s")
+        assert isinstance(app.screen, ResolveScreen)
+    with Study.open(path, readonly=True) as study:
+        assert reasons(study) == expected
+        decisions = study.decisions()
+    assert decisions["reason"].tolist() == [start[1]]  # taken before the reword

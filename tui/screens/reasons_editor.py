@@ -6,6 +6,10 @@ all the resolver's hand has, so the editor holds at most nine reasons and
 refuses a tenth (a longer list stored by other means still works: the
 dialog gives digits to the first nine and ↑↓ Enter reaches the rest).
 
+A reason can be added, reworded in place (it keeps its digit), removed and
+moved. Decisions already taken keep the words they were taken with: the
+journal holds each decision's reason as text, not as a position in this list.
+
 Nothing is written until ``s``: the whole list is then saved at once with
 ``core.resolution.set_reasons`` (one journal row under the resolver's
 initials). Esc leaves without saving.
@@ -50,13 +54,14 @@ class ReasonsEditor(ModalScreen[list[str] | None]):
         Binding("up", "mark(-1)", show=False),
         Binding("down", "mark(1)", show=False),
         Binding("a", "add", "add", id="reasons.add"),
+        Binding("r", "reword", "reword", id="reasons.reword"),
         Binding("x", "remove", "remove", id="reasons.remove"),
         Binding("k,shift+up", "move_item(-1)", "move up", id="reasons.up"),
         Binding("j,shift+down", "move_item(1)", "move down", id="reasons.down"),
         Binding("s", "save", "save", id="reasons.save"),
         Binding("escape", "cancel", "cancel", id="reasons.cancel"),
     ]
-    HINT = ("↑↓ mark · a add · x remove · k/j move up/down · s save · Esc cancel\n"
+    HINT = ("↑↓ mark · a add · r reword · x remove · k/j move up/down · s save · Esc cancel\n"
             "the digit beside a reason picks it when a decision asks why")
 
     def __init__(self, study, keyer: str, **kwargs):
@@ -115,6 +120,25 @@ class ReasonsEditor(ModalScreen[list[str] | None]):
             self._repaint()
 
         self.app.push_screen(ValueDialog("A new reason (added at the end), then Enter:"), added)
+
+    def action_reword(self) -> None:
+        """Change the marked reason's words, keeping its place (and so its digit)."""
+        if not self.items:
+            return
+        at = self.marked
+
+        def reworded(text: str | None) -> None:
+            words = " ".join((text or "").split())
+            if not words or words == self.items[at]:
+                return
+            if words in self.items:
+                self._repaint(f"“{words}” is already in the list — remove one of the two (x).")
+                return
+            self.items[at] = words
+            self._repaint()
+
+        self.app.push_screen(ValueDialog(f"Reason {at + 1} in new words (Backspace to change), "
+                                         "then Enter:", value=self.items[at]), reworded)
 
     def action_remove(self) -> None:
         if len(self.items) <= 1:
