@@ -13,10 +13,10 @@ re-exported here, so callers need only this module. Choices stated here:
 - Outlier candidates: |z| above 3.29 (common practice) and Tukey's fences
   at 1.5 x IQR (quartiles by linear interpolation, type 7).
 
-Small loops run per item, code or variable, never per cell. Somewhat over
-the house's ~600 lines: scoring, descriptives, rules and the result's JSON
-shape are one vocabulary the command line, the report and the app share;
-split the rules out when the app's screening view lands.
+Small loops run per item, code or variable, never per cell. The rules that
+set participants aside (``z:``, ``blank:``) live in ``core.screening_rules``.
+Somewhat over the house's ~600 lines: scoring, descriptives and the result's
+JSON shape are one vocabulary the command line, the report and the app share.
 """
 
 from __future__ import annotations
@@ -29,7 +29,7 @@ import numpy as np
 import pandas as pd
 
 from .codebook import DEFAULT_MIN_ANSWERED, Codebook, Variable
-from .errors import CodebookError, UsageError
+from .errors import CodebookError
 from .passdata import PassData
 from .screening_stats import (
     TUKEY_K,
@@ -55,7 +55,6 @@ __all__ = [
     "TUKEY_K",
     "Z_THRESHOLD",
     "Alpha",
-    "BlankItemsRule",
     "Descriptives",
     "Fences",
     "Kappa",
@@ -63,7 +62,6 @@ __all__ = [
     "ScaleScores",
     "Screening",
     "SplitHalf",
-    "ZRule",
     "cohen_kappa",
     "cronbach_alpha",
     "describe",
@@ -71,7 +69,6 @@ __all__ = [
     "kappa_pairs_from_passes",
     "kurtosis_g2",
     "numeric_values",
-    "parse_rule",
     "scale_scores",
     "screen",
     "sensitivity",
@@ -126,7 +123,8 @@ def _text_values(series: pd.Series, var: Variable) -> tuple[pd.Series, dict[str,
     return s, counts
 
 
-def _participants(data: pd.DataFrame, codebook: Codebook) -> pd.Series:
+def participant_ids(data: pd.DataFrame, codebook: Codebook) -> pd.Series:
+    """The participant ID of each row of ``data`` as text (the row labels if there is no ID column)."""
     try:
         name = codebook.id_variable.name
     except KeyError:
@@ -190,7 +188,7 @@ def scale_scores(data: pd.DataFrame, codebook: Codebook) -> ScaleScores:
     >>> scale_scores(df, cb).scores["A"].tolist()   # (4 + (1 + 5 - 2)) / 2
     [4.0]
     """
-    scores = pd.DataFrame({"participant": _participants(data, codebook)}, index=data.index)
+    scores = pd.DataFrame({"participant": participant_ids(data, codebook)}, index=data.index)
     items_out, method, share_out, prorated, too_few = {}, {}, {}, {}, {}
     for scale, items in codebook.scales.items():
         how, share = _score_setting(items)
@@ -396,7 +394,7 @@ def text_histogram(
         if values.empty:
             return []
         hist, edges = np.histogram(values.to_numpy(), bins=bins)
-        labels = [f"{_num(a)} – {_num(b)}" for a, b in zip(edges[:-1], edges[1:], strict=True)]
+        labels = [f"{short_number(a)} – {short_number(b)}" for a, b in zip(edges[:-1], edges[1:], strict=True)]
         counts = [int(c) for c in hist]
     top = max(max(counts), 1)
     left = max(len(lab) for lab in labels)
@@ -406,7 +404,8 @@ def text_histogram(
     ]
 
 
-def _num(v: float) -> str:
+def short_number(v: float) -> str:
+    """A number as a person writes it in a label: ``3.0`` as ``3``, else up to four figures."""
     return f"{v:.4g}"
 
 
@@ -461,119 +460,6 @@ def _numeric_table(data: pd.DataFrame, codebook: Codebook) -> dict[str, pd.Serie
     for scale in codebook.scales:
         out[scale] = scores[scale]
     return out
-
-
-# ---------------------------------------------------------------- rules
-
-
-@dataclass(frozen=True)
-class ZRule:
-    """Set aside everyone whose |z| on ``variable`` (a variable or a scale's score) is above ``threshold``."""
-
-    variable: str
-    threshold: float = Z_THRESHOLD
-
-    @property
-    def name(self) -> str:
-        """Short name recorded with every set-aside it makes."""
-        return f"z>{_num(self.threshold)}:{self.variable}"
-
-    @property
-    def text(self) -> str:
-        """The rule in a sentence, for the journal and the report."""
-        return (
-            f"|z| above {_num(self.threshold)} on {self.variable} "
-            "(z from the mean and SD, n - 1, of the screened participants; missing codes left out)"
-        )
-
-    def catches(self, data: pd.DataFrame, codebook: Codebook) -> list[str]:
-        """Participants (IDs, in data order) the rule catches.
-
-        >>> from core.codebook import Codebook, Variable
-        >>> cb = Codebook((Variable("id", is_id=True), Variable("x", "number")))
-        >>> ZRule("x", 1.0).catches(pd.DataFrame({"id": ["a", "b", "c"], "x": [1.0, 2, 9]}), cb)
-        ['c']
-        """
-        if self.variable not in codebook and self.variable in codebook.scales:
-            x = scale_scores(data, codebook).scores[self.variable]
-        else:
-            var = _variable(codebook, self.variable)
-            if var.type not in NUMERIC or var.codes:
-                raise UsageError(
-                    f"rule {self.name}: {var.name} is not a measured number (it is "
-                    f"{'coded' if var.codes else var.type}) — pick a numeric variable or a scale."
-                )
-            x, _ = numeric_values(data[var.name], var)
-        hit = (z_scores(x).abs() > self.threshold).fillna(False)
-        return _participants(data, codebook)[hit].tolist()
-
-
-@dataclass(frozen=True)
-class BlankItemsRule:
-    """Set aside everyone with more than ``k`` items of ``scale`` blank."""
-
-    scale: str
-    k: int
-
-    @property
-    def name(self) -> str:
-        """Short name recorded with every set-aside it makes."""
-        return f"blank>{self.k}:{self.scale}"
-
-    @property
-    def text(self) -> str:
-        """The rule in a sentence, for the journal and the report."""
-        return (
-            f"more than {self.k} items of scale {self.scale} blank "
-            "(blank on paper or a declared missing code)"
-        )
-
-    def catches(self, data: pd.DataFrame, codebook: Codebook) -> list[str]:
-        """Participants (IDs, in data order) the rule catches.
-
-        >>> from core.codebook import Codebook, Variable
-        >>> cb = Codebook((Variable("id", is_id=True), Variable("a1", "integer", scale="A"),
-        ...                Variable("a2", "integer", scale="A")))
-        >>> df = pd.DataFrame({"id": ["p", "q"], "a1": [None, 1], "a2": [None, None]})
-        >>> BlankItemsRule("A", 1).catches(df, cb)
-        ['p']
-        """
-        items = codebook.scales.get(self.scale)
-        if not items:
-            raise UsageError(
-                f"rule {self.name}: the codebook has no scale {self.scale!r} — check the name."
-            )
-        blank = sum(numeric_values(data[v.name], v)[0].isna().astype(int) for v in items)
-        return _participants(data, codebook)[blank > self.k].tolist()
-
-
-def parse_rule(text: str) -> ZRule | BlankItemsRule:
-    """Read a rule written ``z:VARIABLE[:THRESHOLD]`` or ``blank:SCALE:K``.
-
-    >>> parse_rule("z:age:3")
-    ZRule(variable='age', threshold=3.0)
-    >>> parse_rule("blank:anx:2")
-    BlankItemsRule(scale='anx', k=2)
-    """
-    parts = [p.strip() for p in text.split(":")]
-    try:
-        if parts[0] == "z" and len(parts) in (2, 3) and parts[1]:
-            return ZRule(parts[1], float(parts[2]) if len(parts) == 3 else Z_THRESHOLD)
-        if parts[0] == "blank" and len(parts) == 3 and parts[1]:
-            k = int(parts[2])
-            if k >= 0:
-                return BlankItemsRule(parts[1], k)
-    except ValueError:
-        pass
-    raise UsageError(
-        f"rule {text!r} is not understood — write z:VARIABLE[:THRESHOLD] or blank:SCALE:K."
-    )
-
-
-def _variable(codebook: Codebook, name: str) -> Variable:
-    if name not in codebook:
-        raise UsageError(f"the codebook has no variable or scale {name!r} — check the name.")
-    return codebook[name]
 
 
 # ---------------------------------------------------------------- everything at once
@@ -760,7 +646,7 @@ def screen(
     >>> screen(pd.DataFrame({"id": ["a", "b"], "x": [1.0, 3.0]}), cb).variables["x"].mean
     2.0
     """
-    who = _participants(data, codebook)
+    who = participant_ids(data, codebook)
     scored = scale_scores(data, codebook)
     scales = {}
     for name, items in codebook.scales.items():

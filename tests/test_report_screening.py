@@ -26,7 +26,7 @@ from core.report import (
     set_aside_rules,
 )
 from core.resolution import set_aside
-from core.screening import ZRule
+from core.screening_rules import ZRule
 from core.store import Study
 
 RESOLVER = "LM"

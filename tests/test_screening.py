@@ -20,15 +20,12 @@ from core.codebook import Code, Codebook, Variable
 from core.errors import CodebookError, UsageError
 from core.passdata import PassData
 from core.screening import (
-    BlankItemsRule,
-    ZRule,
     cohen_kappa,
     cronbach_alpha,
     describe,
     item_analysis,
     kappa_pairs_from_passes,
     kurtosis_g2,
-    parse_rule,
     scale_scores,
     screen,
     sensitivity,
@@ -38,6 +35,7 @@ from core.screening import (
     text_histogram,
     tukey_fences,
 )
+from core.screening_rules import BlankItemsRule, ZRule, parse_rule
 
 DATA = Path(__file__).parent / "data"
 

@@ -40,7 +40,8 @@ def configure(parser: argparse.ArgumentParser) -> None:
 def run(args: argparse.Namespace) -> int:
     from core.errors import UsageError
     from core.resolution import everyone_kept, set_aside, verified_table
-    from core.screening import kappa_pairs_from_passes, parse_rule, screen
+    from core.screening import kappa_pairs_from_passes, screen
+    from core.screening_rules import parse_rule
     from core.store import Study
 
     rules = [parse_rule(text) for text in args.rule]

@@ -114,7 +114,7 @@ class RuleDialog(ModalScreen[tuple | None]):
             self.dismiss((self.rule, list(self.caught), reason, keyer))
 
     def _preview(self, text: str) -> None:
-        from core.screening import parse_rule
+        from core.screening_rules import parse_rule
 
         view = self.view
         try:
