@@ -3,8 +3,9 @@
 :func:`export` takes a :class:`~core.verified.Verified` (built by the
 resolution step) and writes it where ``out`` points:
 
-- ``*.csv``: the data (UTF-8), plus ``<name>.set_aside.csv`` (who was set
-  aside and why) and ``<name>.about.json`` (provenance) beside it;
+- ``*.csv``: the data (UTF-8), plus ``<name>.schema.json`` (its Table
+  Schema: types, ranges, codes, missing values), ``<name>.set_aside.csv``
+  (who was set aside and why) and ``<name>.about.json`` (provenance) beside it;
 - ``*.xlsx``: one workbook, sheets ``data``, ``codebook``, ``decisions``,
   ``set aside``, ``kept values`` and ``about`` (openpyxl write-only mode);
 - anything else without a suffix: a folder holding a Data Package
@@ -347,13 +348,17 @@ def _export_csv(verified, data, path, prov, progress, computed) -> list[Path]:
     stem = _stem(path)
     about = path.with_name(stem + ".about.json")
     set_aside = path.with_name(stem + ".set_aside.csv")
+    schema = path.with_name(stem + ".schema.json")
     info = _about(prov, verified, data, computed)
     info["computed"] = {c.name: c.rule for c in computed}
-    info["files"] = {"data": path.name, "set_aside": set_aside.name}
+    info["files"] = {"data": path.name, "schema": schema.name, "set_aside": set_aside.name}
     if verified.draft:
         info["files"]["open_cells"] = stem + ".open.csv"
+    names = list(data.columns[: len(data.columns) - len(computed)])
+    table = table_schema(verified.codebook, names, _safe_kept(verified), computed)
     files = [
         _write_csv(set_aside, _frame(verified.set_aside, SET_ASIDE_COLUMNS)),
+        atomic_text(schema, json.dumps(table, indent=2, ensure_ascii=False) + "\n"),
         atomic_text(about, json.dumps(info, indent=2, ensure_ascii=False) + "\n"),
     ]
     files.append(_write_csv(path, _csv_ready(data), progress))

@@ -187,6 +187,39 @@ def test_frictionless_refuses_a_value_the_codebook_forbids(tmp_path, column, val
     assert [column, "constraint-error"] in errors
 
 
+def _validate_csv(csv_path: Path, schema_path: Path):
+    # frictionless: the reference implementation of the Table Schema standard,
+    # reading the CSV with the schema written beside it.
+    from frictionless import Resource, Schema
+
+    schema = Schema.from_descriptor(json.loads(schema_path.read_text(encoding="utf-8")))
+    return validate(Resource(path=csv_path.name, basepath=str(csv_path.parent), schema=schema))
+
+
+def test_csv_export_writes_its_table_schema_beside_it(tmp_path):
+    result = export(_verified(), tmp_path / "verified.csv", now=NOW)
+    schema_path = tmp_path / "verified.schema.json"
+    assert schema_path in result.files
+    about = json.loads((tmp_path / "verified.about.json").read_text(encoding="utf-8"))
+    assert about["files"]["schema"] == "verified.schema.json"
+    report = _validate_csv(result.path, schema_path)
+    assert report.valid, report.flatten(["rowNumber", "fieldName", "type", "note"])
+    schema = json.loads(schema_path.read_text(encoding="utf-8"))
+    assert [f["name"] for f in schema["fields"]] == list(pd.read_csv(result.path).columns)
+
+
+@pytest.mark.parametrize(
+    ("column", "values"),
+    [("age", [34, 17, 51, None]), ("q1", [1, 3, 7, 2]), ("weight", [61.5, -1.0, None, 2.0])],
+)
+def test_csv_schema_lets_frictionless_refuse_a_value_the_codebook_forbids(tmp_path, column,
+                                                                          values):
+    result = export(_verified(**{column: values}), tmp_path / "v.csv", now=NOW)
+    report = _validate_csv(result.path, tmp_path / "v.schema.json")
+    assert not report.valid
+    assert [column, "constraint-error"] in report.flatten(["fieldName", "type"])
+
+
 def test_no_analysis_file_holds_an_identifying_variable(tmp_path):
     ident = tmp_path / "apart" / "identifying.csv"
     ident.parent.mkdir()
