@@ -176,6 +176,8 @@ class Report:
     """pass, forms, finished, dropped, keyers."""
     paired: int
     """Participants with a form in both passes."""
+    one_pass: int
+    """Participants with a form in one pass only (dropped forms left out)."""
     fields_compared: int
     status: dict[str, int]
     """Discrepancies open, settled, stale."""
@@ -303,9 +305,8 @@ def assemble_report(
     kept_forms["pid"] = canonical_series(id_var, kept_forms["participant"].astype(object))[0]
     kept_forms = kept_forms[kept_forms["pid"].notna() & (kept_forms["pid"] != "")]
     firsts = kept_forms.drop_duplicates(["pass", "pid"])
-    both = set(firsts.loc[firsts["pass"] == 1, "pid"]) & set(
-        firsts.loc[firsts["pass"] == 2, "pid"]
-    )
+    in1, in2 = set(firsts.loc[firsts["pass"] == 1, "pid"]), set(firsts.loc[firsts["pass"] == 2, "pid"])
+    both = in1 & in2
     paired = firsts[firsts["pid"].isin(both)]
     keyer_of = forms.set_index("form_id")["keyer"].astype(str)
     rows = rows.copy()
@@ -376,6 +377,7 @@ def assemble_report(
         variables=len(compared),
         forms=forms_table,
         paired=len(both),
+        one_pass=len(in1 ^ in2),
         fields_compared=fields_compared,
         status={s: int(statuses.get(s, 0)) for s in ("open", "settled", "stale")},
         by_kind=_count(rows, "kind"),
@@ -476,9 +478,12 @@ def _rates_table(rates: pd.DataFrame, by: str) -> pd.DataFrame:
 
 def _sections(report: Report) -> list[tuple[str, list]]:
     """The report as (title, parts); a part is a paragraph (str) or a table."""
+    from .report_methods import methods_paragraph
+
     u = report.unseen
     open_n, settled_n, stale_n = (report.status[s] for s in ("open", "settled", "stale"))
     sections: list[tuple[str, list]] = [
+        ("For the methods section", [methods_paragraph(report)]),
         ("Forms and fields", [
             report.forms.astype(str),
             f"Participants keyed in both passes: {report.paired:,}. Variables compared per "
