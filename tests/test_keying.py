@@ -253,18 +253,51 @@ async def test_second_form_with_the_same_number(tmp_path):
 
 
 @sync
-async def test_condition_false_skips_but_the_field_stays_reachable(tmp_path):
+async def test_a_field_that_does_not_apply_is_visited_and_enter_records_it_blank(tmp_path):
     path = make_study(tmp_path)
     app = make_app(path, mode="key", pass_no=1, keyer="AB")
     async with app.run_test(size=SIZE) as pilot:
         await pilot.press(*field_keys(["5", "AK", "30", "1", "2020-02-02", "1", "1", "1", "2"]))
         model = app.screen.model
-        assert model.names[model.cursor] == "comment"  # children_visit skipped: no children
-        await pilot.press("up")
+        # has_children = 2 (no): children_visit does not apply, but the paper has its box.
         assert model.names[model.cursor] == "children_visit"
-        assert "is false" in str(app.screen.detail.content)
+        assert "does not apply here (has_children = 1 is false)" in str(app.screen.detail.content)
+        await pilot.press("enter")  # the empty box on the paper
+        assert model.names[model.cursor] == "comment"
     (form,) = stored(path)
-    assert form.states["children_visit"] == "blank"  # what the codebook says it must be
+    assert (form.texts["children_visit"], form.states["children_visit"]) == ("", "blank")
+
+
+@sync
+async def test_a_value_where_the_question_does_not_apply_needs_a_second_enter(tmp_path):
+    path = make_study(tmp_path)
+    app = make_app(path, mode="key", pass_no=1, keyer="AB")
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press(*field_keys(["5", "AK", "30", "1", "2020-02-02", "1", "1", "1", "2"]))
+        model = app.screen.model
+        await pilot.press("3", "enter")
+        assert model.names[model.cursor] == "children_visit"  # warned, not moved
+        assert "does not apply" in model.message
+        await pilot.press("enter")  # the paper says 3 all the same: kept
+        assert model.names[model.cursor] == "comment"
+    (form,) = stored(path)
+    assert (form.texts["children_visit"], form.states["children_visit"]) == ("3", "keyed")
+
+
+@sync
+async def test_the_enter_for_an_empty_box_never_shifts_later_fields(tmp_path):
+    # A keyer's burst for a form whose conditional box is empty on the paper:
+    # one Enter per box, as the paper shows them. Every later value must land
+    # in its own field (the screen once skipped the box, so that Enter blanked
+    # the comment and would have shifted any field after it).
+    path = make_study(tmp_path)
+    app = make_app(path, mode="key", pass_no=1, keyer="AB")
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press(*field_keys(["5", "AK", "30", "1", "2020-02-02", "1", "1", "1", "2",
+                                       "", "fine"]))
+    (form,) = stored(path)
+    assert form.states["children_visit"] == "blank"
+    assert (form.texts["comment"], form.states["comment"]) == ("fine", "keyed")
 
 
 @sync
@@ -326,7 +359,7 @@ async def test_pass_two_never_shows_pass_one_values(tmp_path):
     with Study.open(path) as study:
         study.import_pass(1, "AB", pass1)
     secret = ["QZX", "8765", "433,7", "1999-12-25", "Zanzibarfoo"]
-    typed = ["31", "MN", "42", "10", "2020-03-03", "2", "3", "1", "2", "ok"]
+    typed = ["31", "MN", "42", "10", "2020-03-03", "2", "3", "1", "2", "", "ok"]
     app = make_app(path, mode="key", pass_no=2, keyer="JM")
     async with app.run_test(size=SIZE) as pilot:
         await pilot.pause()  # the keying screen's first paint
@@ -387,7 +420,7 @@ async def test_review_names_flagged_fields_and_tab_goes_to_the_first(tmp_path):
     app = make_app(path, mode="key", pass_no=1, keyer="AB")
     async with app.run_test(size=SIZE) as pilot:
         keys = field_keys(typed[:3]) + ["enter"] + field_keys(typed[3:]) + ["asterisk"]
-        await pilot.press(*keys, *field_keys(["1", "2", ""]))  # children_visit skipped
+        await pilot.press(*keys, *field_keys(["1", "2", "", ""]))  # children_visit blank
         model = app.screen.model
         assert model.mode == REVIEW_MODE
         detail = str(app.screen.detail.content)
@@ -406,7 +439,7 @@ async def test_a_demo_form_keyed_from_its_paper_with_auto_advance(tmp_path, row,
     # The demo's codebook and its paper truth (fixtures/demo), keyed as a keyer
     # with the usual habit does, auto-advance on or off: each value then Enter,
     # a second Enter where the value breaks the codebook (core.values decides
-    # which), nothing typed for a field whose applies_if is false.
+    # which), Enter alone for a field whose applies_if is false (its box is empty).
     from core.codebook_io import load_codebook
     from core.conditions import parse_condition
     from core.values import parse
@@ -419,7 +452,9 @@ async def test_a_demo_form_keyed_from_its_paper_with_auto_advance(tmp_path, row,
     for var in cb:
         value = paper[var.name]
         if var.applies_if and not parse_condition(var.applies_if).evaluate_one(typed):
-            expected[var.name] = ("", "blank")  # skipped: blank, as the codebook says
+            assert value == "", "the demo's paper leaves a box that does not apply empty"
+            expected[var.name] = ("", "blank")  # blank, as the codebook says
+            keys += ["enter"]
             continue
         expected[var.name] = (value, "keyed" if value else "blank")
         if not value:

@@ -270,6 +270,7 @@ class KeyingScreen(Screen):
         var = m.variables[m.cursor]
         page = f"page {var.section}" if var.section.isdigit() else var.section
         section = f"{page} · " if page else ""
-        skipped = "" if m.applies(m.cursor) else f"\nskipped: {var.applies_if} is false"
+        skipped = "" if m.applies(m.cursor) else \
+            f"\ndoes not apply here ({var.applies_if} is false): Enter for blank"
         return (f"{section}{var.name}  {var.label}\nallowed: {m.allowed[m.cursor]}"
                 f"{' · required' if var.required else ''}{skipped}")

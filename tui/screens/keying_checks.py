@@ -81,3 +81,16 @@ class QuickCheck:
             if (var.min is not None and x < var.min) or (var.max is not None and x > var.max):
                 return None
         return True
+
+    def is_missing_code(self, text: str) -> bool:
+        """Whether ``text`` is one of the variable's declared missing codes (``09`` is ``9``)."""
+        if not self.var.missing_values or not text.strip():
+            return False
+        canon = self.canonical(text) if self.missing is not None else None
+        if canon is not None:
+            return canon in self.missing
+        # Dates, other scripts: the rule itself decides (rare, so its cost is fine).
+        from core.values import parse
+
+        wanted = {parse(self.var, code).canonical for code in self.var.missing_values}
+        return parse(self.var, text).canonical in wanted

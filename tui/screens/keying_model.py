@@ -15,9 +15,15 @@ Rules kept here:
   "illegible" (both store text ``""``). A value that breaks its variable's
   type, range or codes, and a blank in a required field, get a warning and
   need a second Enter to keep.
-- Fields whose ``applies_if`` is false are skipped going forward (recorded as
-  blank, which is what the codebook says such a field must be) but reachable
-  going back.
+- Fields whose ``applies_if`` is false are visited like every other field,
+  never skipped: the prompt says the question does not apply, Enter records
+  it blank (what the codebook says it must be), and a value typed there gets
+  a warning and needs a second Enter (the paper may really hold one). Every
+  box on the paper then takes the same keys, which is what type-ahead needs:
+  a field skipped by the screen turned a keyer's Enter for the empty box on
+  the paper into a blank in the next field and shifted every later value by
+  one, and two keyers with the same habit shift alike, so their passes agree
+  on wrong values that comparison cannot see.
 - Blindness: the model asks the study for this pass's forms only; of the
   other pass it knows a count of forms and nothing else.
 """
@@ -202,7 +208,7 @@ class KeyingModel:
         """
         self.mode = FIELD_MODE
         for i, name in enumerate(self.names):
-            if self.states[name] is None and self.applies(i):
+            if self.states[name] is None:
                 self.cursor = i
                 return
         flagged = [f.index for f in self.flags()]
@@ -254,13 +260,13 @@ class KeyingModel:
                 self._counted()
                 self._advance()  # Enter on a field marked illegible keeps the mark
                 return True
-            if var.required and self._warned != (i, ""):
+            if var.required and self._warned != (i, "") and self.applies(i):
                 self._warned = (i, "")
                 self.message = f"{name} is required; Enter again records it as blank on paper."
                 return False
             self._write(i, "", BLANK)
         else:
-            problem = self.problem_of(i, text)
+            problem = self.problem_of(i, text) or self.not_applying(i, text)
             if problem and self._warned != (i, text):
                 self._warned = (i, text)
                 self.message = f"{problem} Enter again keeps it as the paper says."
@@ -276,6 +282,13 @@ class KeyingModel:
             return ""
         parsed = parse(self.variables[index], text)
         return parsed.message if parsed.problem else ""
+
+    def not_applying(self, index: int, text: str) -> str:
+        """The warning for a value typed where ``applies_if`` is false (missing codes pass)."""
+        var = self.variables[index]
+        if self.applies(index) or self._quick[index].is_missing_code(text):
+            return ""
+        return f"{var.name} does not apply here ({var.applies_if} is false)."
 
     def text_changed(self, text: str) -> None:
         """The keyer edited the text: a warning given for another text no longer counts."""
@@ -319,10 +332,6 @@ class KeyingModel:
 
     def _advance(self) -> None:
         i = self.cursor + 1
-        while i < len(self.names) and not self.applies(i):
-            if self.states[self.names[i]] is None:
-                self._write(i, "", BLANK)
-            i += 1
         if i >= len(self.names):
             self.mode = REVIEW_MODE
             self.cursor = len(self.names) - 1
@@ -339,8 +348,7 @@ class KeyingModel:
             state, text = self.states[var.name], self.texts[var.name]
             applies = self.applies(i, values)
             if state is None:
-                if applies:
-                    out.append(Flag(i, "not keyed"))
+                out.append(Flag(i, "not keyed"))
             elif state == ILLEGIBLE:
                 out.append(Flag(i, "illegible"))
             elif state == BLANK:
