@@ -252,14 +252,18 @@ async def test_second_form_with_the_same_number(tmp_path):
     assert [(f.participant, f.texts["initials"]) for f in forms] == [("77", "AK"), ("77", "BB")]
 
 
+# Member 5's paper up to children_visit: has_children is 2 (no), so that question
+# does not apply; its box on the paper is empty.
+NO_CHILDREN = ["5", "AK", "30", "1", "2020-02-02", "1", "1", "1", "2"]
+
+
 @sync
 async def test_a_field_that_does_not_apply_is_visited_and_enter_records_it_blank(tmp_path):
     path = make_study(tmp_path)
     app = make_app(path, mode="key", pass_no=1, keyer="AB")
     async with app.run_test(size=SIZE) as pilot:
-        await pilot.press(*field_keys(["5", "AK", "30", "1", "2020-02-02", "1", "1", "1", "2"]))
+        await pilot.press(*field_keys(NO_CHILDREN))
         model = app.screen.model
-        # has_children = 2 (no): children_visit does not apply, but the paper has its box.
         assert model.names[model.cursor] == "children_visit"
         assert "does not apply here (has_children = 1 is false)" in str(app.screen.detail.content)
         await pilot.press("enter")  # the empty box on the paper
@@ -273,7 +277,7 @@ async def test_a_value_where_the_question_does_not_apply_needs_a_second_enter(tm
     path = make_study(tmp_path)
     app = make_app(path, mode="key", pass_no=1, keyer="AB")
     async with app.run_test(size=SIZE) as pilot:
-        await pilot.press(*field_keys(["5", "AK", "30", "1", "2020-02-02", "1", "1", "1", "2"]))
+        await pilot.press(*field_keys(NO_CHILDREN))
         model = app.screen.model
         await pilot.press("3", "enter")
         assert model.names[model.cursor] == "children_visit"  # warned, not moved
@@ -293,8 +297,7 @@ async def test_the_enter_for_an_empty_box_never_shifts_later_fields(tmp_path):
     path = make_study(tmp_path)
     app = make_app(path, mode="key", pass_no=1, keyer="AB")
     async with app.run_test(size=SIZE) as pilot:
-        await pilot.press(*field_keys(["5", "AK", "30", "1", "2020-02-02", "1", "1", "1", "2",
-                                       "", "fine"]))
+        await pilot.press(*field_keys([*NO_CHILDREN, "", "fine"]))
     (form,) = stored(path)
     assert form.states["children_visit"] == "blank"
     assert (form.texts["comment"], form.states["comment"]) == ("fine", "keyed")
