@@ -428,9 +428,10 @@ def _sides(codebook: Codebook, p1: PassData, p2: PassData, forms1, forms2, progr
         missing_ext = np.append(missing, False)
         for chunk, chunk_uniques in parts:
             if len(parts) > 1:
-                remap = np.append(_codes.positions(uniques, chunk_uniques, index), -1)
+                remap = np.append(_codes.positions(uniques, chunk_uniques, index),
+                                  -1).astype(np.int32)
                 for side in sides:
-                    side.ucode[:, chunk] = remap.astype(np.int32)[side.ucode[:, chunk]]
+                    side.ucode[:, chunk] = remap[side.ucode[:, chunk]]
             ca, cb = sides[0].ucode[:, chunk], sides[1].ucode[:, chunk]
             # Equal codes are equal values; only the other cells need their value numbers.
             eq = ca == cb
