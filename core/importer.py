@@ -89,7 +89,8 @@ def read_keyed_file(
 
     Returns ``(texts, notes)``: ``texts`` has one row per form, indexed by the
     spreadsheet row number (the header is row 1), the codebook's names as
-    columns in paper order, every cell a ``str`` (``""`` for an empty cell).
+    columns in paper order, every cell a ``str`` (``""`` for an empty cell; a
+    plain CSV file's columns are categorical, of ``str``, others hold objects).
     ``notes`` lists what was interpreted on the way, one sentence each.
     ``encoding`` applies to CSV only; None detects UTF-8 (with or without a
     byte-order mark), then cp1252, then latin-1.
