@@ -178,6 +178,8 @@ class Report:
     """Participants with a form in both passes."""
     one_pass: int
     """Participants with a form in one pass only (dropped forms left out)."""
+    imported: dict[int, int]
+    """Per pass, forms imported from a spreadsheet rather than keyed on screen (dropped left out)."""
     fields_compared: int
     status: dict[str, int]
     """Discrepancies open, settled, stale."""
@@ -308,6 +310,8 @@ def assemble_report(
     in1, in2 = set(firsts.loc[firsts["pass"] == 1, "pid"]), set(firsts.loc[firsts["pass"] == 2, "pid"])
     both = in1 & in2
     paired = firsts[firsts["pid"].isin(both)]
+    source = kept_forms["source"].fillna("").astype(str) if "source" in kept_forms \
+        else pd.Series("", index=kept_forms.index)
     keyer_of = forms.set_index("form_id")["keyer"].astype(str)
     rows = rows.copy()
     for p in (1, 2):
@@ -378,6 +382,7 @@ def assemble_report(
         forms=forms_table,
         paired=len(both),
         one_pass=len(in1 ^ in2),
+        imported={p: int(((kept_forms["pass"] == p) & (source != "")).sum()) for p in (1, 2)},
         fields_compared=fields_compared,
         status={s: int(statuses.get(s, 0)) for s in ("open", "settled", "stale")},
         by_kind=_count(rows, "kind"),

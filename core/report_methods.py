@@ -73,10 +73,27 @@ def _keying(report: Report) -> str:
     elif report.paired:
         text += "; no one keyed both passes of the same questionnaire"
     text += "."
+    text += " " + _where_keyed(report)
     if report.one_pass:
         text += (f" {_n(report.one_pass, 'further questionnaire was', 'further questionnaires were')}"
                  " keyed in one pass only.")
     return text
+
+
+def _where_keyed(report: Report) -> str:
+    imported = {p: n for p, n in report.imported.items() if n}
+    if not imported:
+        return ("Both passes were keyed on keyproof's keying screen, which never shows "
+                "one pass's values while the other is keyed.")
+    forms = dict(zip(report.forms["pass"].astype(int), report.forms["forms"].astype(int),
+                     strict=True))
+    if all(imported.get(p, 0) == forms.get(p, 0) for p in (1, 2)):
+        return ("Both passes were keyed in spreadsheets and imported; keyproof cannot keep "
+                "one pass from seeing the other there.")
+    said = " and ".join(f"{_n(n, 'form', 'forms')} of pass {p}" for p, n in imported.items())
+    return (f"{said} {'was' if sum(imported.values()) == 1 else 'were'} keyed in a "
+            "spreadsheet and imported, where keyproof cannot keep one pass from seeing "
+            "the other; the rest were keyed on its keying screen, which can.")
 
 
 def _comparison(report: Report, open_n: int) -> str:

@@ -144,7 +144,7 @@ _DECISION_COLUMNS = [
 ]  # fmt: skip
 _FORM_COLUMNS = [
     "form_id", "pass", "serial", "participant", "keyer", "created_at", "updated_at",
-    "finished_at", "dropped", "entered",
+    "finished_at", "dropped", "entered", "source",
 ]  # fmt: skip
 
 
@@ -792,14 +792,15 @@ class Study:
     def forms(self, pass_no: int | None = None) -> pd.DataFrame:
         """The forms of one pass (or both), oldest first: form_id, pass, serial,
         participant (ID text, None if not keyed), keyer, created_at, updated_at,
-        finished_at (None while open), dropped (bool), entered (fields keyed).
+        finished_at (None while open), dropped (bool), entered (fields keyed),
+        source (the file a form was imported from; ``""`` when keyed on screen).
 
         >>> # study.forms(1).query("finished_at.isna()")
         """
         where, params = ("WHERE f.pass_no = ?", [pass_no]) if pass_no is not None else ("", [])
         rows = self._query(
             "SELECT f.form_id, f.pass_no, f.serial, f.participant, f.keyer, f.created_at, "
-            f"f.updated_at, f.finished_at, f.dropped, f.entered FROM forms f {where} "
+            f"f.updated_at, f.finished_at, f.dropped, f.entered, f.source FROM forms f {where} "
             "ORDER BY f.form_id",
             params,
         )

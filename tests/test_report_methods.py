@@ -41,6 +41,8 @@ def test_open_study_gives_a_draft_that_says_so_first(tmp_path):
            for p in (1, 2)]
     assert f"{len(ids[0] & ids[1])} questionnaires were keyed twice" in text
     assert f"{len(ids[0] ^ ids[1])} further questionnaires were keyed in one pass only" in text
+    # The demo imports both keyed files whole.
+    assert "Both passes were keyed in spreadsheets and imported" in text
 
 
 def test_resolved_demo_paragraph_states_the_slips_record(tmp_path):
@@ -55,6 +57,10 @@ def test_resolved_demo_paragraph_states_the_slips_record(tmp_path):
     variables = len(CODEBOOK) - 1  # the ID pairs the forms
     assert f"{paired} questionnaires were keyed twice" in text
     assert "one pass only" not in text
+    # The resolver keyed the missing form on screen; every other form came from the files.
+    rows = [len(pd.read_csv(FIXTURES / f"pass{p}.csv", dtype=str)) for p in (1, 2)]
+    assert (f"{rows[0]} forms of pass 1 and {rows[1]} forms of pass 2 were keyed in a "
+            "spreadsheet and imported") in text
     assert "no one keyed both passes" in text
 
     field_slips = SLIPS[~SLIPS["variable"].isin(["", CODEBOOK.id_variable.name])]
