@@ -84,6 +84,7 @@ REOPEN = "reopen"
 
 FORM_KINDS = ("only_in_pass1", "only_in_pass2", "duplicate_id")
 SHIFT_CAUSE = "field_shift"
+CASE_SPACE_CAUSE = "case_space"
 ILLEGIBLE_SHOWN = "(illegible)"
 KEEP_PREFIX = "paper says:"
 
@@ -480,6 +481,41 @@ def settle_shift(study, participant: str, pass_no: int, reason: str, keyer: str,
         for _, row in shift.iterrows():
             take_pass(study, row, pass_no, reason, keyer, keep=keep)
     return len(shift)
+
+
+def spelling_rows(codebook: Codebook, rows: pd.DataFrame) -> pd.DataFrame:
+    """Open discrepancies in free text (string, no codes) whose passes differ only in case or spaces.
+
+    These are the ones :func:`settle_spelling` settles at once; a case or
+    space difference in a number, a date or a coded answer is a real question
+    (is ``1 2`` twelve?) and stays for the paper, one by one.
+    """
+    free = {v.name for v in codebook if v.type == "string" and not v.codes and not v.is_id}
+    mask = ((rows["cause"].astype("string") == CASE_SPACE_CAUSE)
+            & rows["variable"].isin(free) & (rows["_status"] != SETTLED))
+    return rows[mask.fillna(False)]
+
+
+def settle_spelling(study, pass_no: int, reason: str, keyer: str,
+                    rows: pd.DataFrame | None = None) -> int:
+    """Settle every free-text difference of case or spaces at once: pass ``pass_no``'s text stands.
+
+    DESIGN.md's bulk settling: the two texts say the same, so one decision per
+    cell, each with ``reason``, in one transaction. ``rows`` is the current
+    worklist (computed when None). Returns how many cells were settled.
+
+    >>> settle_spelling(study, 1, "case or spaces only: pass 1's spelling kept", "LM")  # doctest: +SKIP
+    6
+    """
+    rows = worklist(study) if rows is None else rows
+    todo = spelling_rows(study.codebook, rows)
+    if todo.empty:
+        raise DecisionError("no open difference of case or spaces in free text — "
+                            "nothing to settle at once.")
+    with study.transaction():
+        for _, row in todo.iterrows():
+            take_pass(study, row, pass_no, reason, keyer)
+    return len(todo)
 
 
 def reopen(study, row, reason: str, keyer: str) -> int:

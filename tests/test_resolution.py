@@ -34,6 +34,7 @@ from core.resolution import (
     set_paper_value,
     set_reasons,
     settle_shift,
+    settle_spelling,
     take_pass,
     verified_table,
     worklist,
@@ -488,3 +489,15 @@ def test_verified_table_reads_local_dates_and_decimal_commas(tmp_path):
         "q": pd.array([4, -9], dtype="Int64"),  # a declared missing code stays as its code
     })  # fmt: skip
     pd.testing.assert_frame_equal(data, expected)
+
+
+def test_settling_spelling_with_nothing_of_the_kind_open_is_refused(tmp_path):
+    path = tmp_path / "none.sqlite"
+    cb = Codebook((Variable("pid", "integer", is_id=True), Variable("note", "string")))
+    with Study.create(path, cb, "LM") as study:
+        study.import_pass(1, "AB", pd.DataFrame({"pid": ["1"], "note": ["fine"]}))
+        study.import_pass(2, "JM", pd.DataFrame({"pid": ["1"], "note": ["fine!"]}))
+        head = study.journal_head()
+        with pytest.raises(DecisionError, match="no open difference of case or spaces"):
+            settle_spelling(study, 1, "case or spaces only", "LM")
+        assert study.journal_head() == head  # nothing written

@@ -389,3 +389,51 @@ async def test_keys_typed_in_a_burst_land_in_their_dialogs(tmp_path):
         ["2", "q1", "1", "checked against paper: both wrong"],
         ["3", "q2", "4", "checked against paper: pass 2 right"],
     ]
+
+
+# ------------------------------------------------------------------ case or spaces, at once
+
+SPELLING_CB = Codebook((
+    Variable("pid", "integer", is_id=True),
+    Variable("note", "string"),
+    Variable("sex", "string", codes=(Code("m"), Code("f"))),
+    Variable("visits", "integer"),
+))  # fmt: skip
+
+
+@sync
+async def test_free_text_differing_only_in_case_or_spaces_is_settled_at_once(tmp_path):
+    # Built here: two free-text cells that differ only in case or spaces (settled at
+    # once), and the same kind of difference in a coded answer and in a number,
+    # which stay open for the paper.
+    path = tmp_path / "spelling.sqlite"
+    pass1 = pd.DataFrame({"pid": ["1", "2"], "note": ["Thanks a lot", "ok"],
+                          "sex": ["m", "f"], "visits": ["12", "3"]})
+    pass2 = pd.DataFrame({"pid": ["1", "2"], "note": ["thanks  a lot", "OK"],
+                          "sex": ["M", "f"], "visits": ["1 2", "3"]})
+    with Study.create(path, SPELLING_CB, "LM") as study:
+        study.import_pass(1, "AB", pass1)
+        study.import_pass(2, "JM", pass2)
+        before = worklist(study)
+    assert sorted(before.loc[before["cause"] == "case_space", "variable"]) == [
+        "note", "note", "sex", "visits"]
+    app = make_app(path, mode="resolve", keyer="LM")
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        await pilot.press("s")
+        assert isinstance(app.screen, ChoiceDialog) and "2 open" in app.screen.title_text
+        await pilot.press("2")  # pass 2's spelling stands
+        assert isinstance(app.screen, ReasonDialog)
+        await pilot.press("t")
+        await type_text(pilot, "case or spaces only")
+        await pilot.press("enter")
+        await settle(app, pilot)
+        assert isinstance(app.screen, ResolveScreen)
+    with Study.open(path, readonly=True) as study:
+        decisions = study.decisions()
+        left = worklist(study)
+    assert sorted(decisions[["participant", "variable", "value", "reason"]].values.tolist()) == [
+        ["1", "note", "thanks  a lot", "case or spaces only"],
+        ["2", "note", "OK", "case or spaces only"]]
+    still = left[left["_status"] != "settled"]
+    assert sorted(still["variable"]) == ["sex", "visits"]  # for the paper, one by one

@@ -61,6 +61,8 @@ class ResolveScreen(Screen):
         Binding("7", "missing_code", "missing", id="resolve.missing-code"),
         Binding("9", "keep", "keep", id="resolve.keep"),
         Binding("8", "shift", "shift", id="resolve.shift"),
+        # Rare, so out of the footer: the detail names it on a row it applies to.
+        Binding("s", "spelling", "spelling", id="resolve.spelling", show=False),
         Binding("p", "pair", "pair", id="resolve.pair"),
         Binding("d", "drop", "drop twice-keyed", id="resolve.drop"),
         Binding("c", "confirm", "one pass only", id="resolve.confirm"),
@@ -455,6 +457,34 @@ class ResolveScreen(Screen):
 
         self.app.push_screen(ChoiceDialog(f"Form {participant}: which pass has the run right?",
                                           ["pass 1 is right", "pass 2 is right"]), picked)
+
+    def action_spelling(self) -> None:
+        """Settle every free-text difference of case or spaces at once, one pass's text standing."""
+        if self.rows is None:
+            return
+        todo = res.spelling_rows(self.study.codebook, self.rows)
+        if todo.empty:
+            self.say("No open difference of case or spaces in free text — settle cells one by one.")
+            return
+        n = len(todo)
+        choices = {"keep pass 1's spelling": 1, "keep pass 2's spelling": 2}
+
+        def picked(item: str | None) -> None:
+            if item is None:
+                return
+            pass_no = choices[item]
+
+            def then(reason: str) -> None:
+                positions = [self.rows.index.get_loc(i) for i in todo.index]
+                res.settle_spelling(self.study, pass_no, reason, self.keyer, rows=self.rows)
+                self._settled(positions, res.VALUE, "", "", reason)
+
+            self._ask_reason(f"{n} free-text difference(s) of case or spaces: pass {pass_no}'s "
+                             "text stands", f"take_pass({pass_no})", then)
+
+        self.app.push_screen(ChoiceDialog(
+            f"{n} open free-text difference(s) of only case or spaces: whose spelling stands?",
+            list(choices)), picked)
 
     # ------------------------------------------------------------------ form level
 

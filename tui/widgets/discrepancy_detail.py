@@ -21,7 +21,7 @@ CAUSE_WORDS = {
     "decimal_shift": "the decimal point moved",
     "sign": "the sign lost or added",
     "field_shift": "field shift: values slid by one field (settle the run with 8)",
-    "case_space": "only case or spaces differ",
+    "case_space": "only case or spaces differ (in free text, s settles all such at once)",
     "omitted": "one pass left it empty",
     "other": "no simple slip explains it",
 }
