@@ -307,7 +307,7 @@ def assemble_report(
     kept_forms["pid"] = canonical_series(id_var, kept_forms["participant"].astype(object))[0]
     kept_forms = kept_forms[kept_forms["pid"].notna() & (kept_forms["pid"] != "")]
     firsts = kept_forms.drop_duplicates(["pass", "pid"])
-    in1, in2 = set(firsts.loc[firsts["pass"] == 1, "pid"]), set(firsts.loc[firsts["pass"] == 2, "pid"])
+    in1, in2 = (set(firsts.loc[firsts["pass"] == p, "pid"]) for p in (1, 2))
     both = in1 & in2
     paired = firsts[firsts["pid"].isin(both)]
     source = kept_forms["source"].fillna("").astype(str) if "source" in kept_forms \
@@ -459,7 +459,8 @@ def screening_section(study, rows: pd.DataFrame | None = None) -> tuple[pd.DataF
 # --- rendering --------------------------------------------------------------
 
 
-def _num(x, digits: int = 1) -> str:
+def shown_number(x, digits: int = 1) -> str:
+    """A number as the report prints it: thousands separated, ``—`` when missing."""
     if x is None or (isinstance(x, float) and math.isnan(x)) or x is pd.NA:
         return "—"
     if isinstance(x, int) or (isinstance(x, float) and x.is_integer() and digits == 0):
@@ -470,10 +471,10 @@ def _num(x, digits: int = 1) -> str:
 def _rates_table(rates: pd.DataFrame, by: str) -> pd.DataFrame:
     table = pd.DataFrame({
         by: rates[by].astype(str),
-        "fields": [_num(int(v)) for v in rates["fields"]],
-        "errors": [_num(int(v)) for v in rates["errors"]],
-        "per 10,000 fields": [_num(v) for v in rates["per_10000"]],
-        "95 % Wilson interval": [f"{_num(lo)} to {_num(hi)}"
+        "fields": [shown_number(int(v)) for v in rates["fields"]],
+        "errors": [shown_number(int(v)) for v in rates["errors"]],
+        "per 10,000 fields": [shown_number(v) for v in rates["per_10000"]],
+        "95 % Wilson interval": [f"{shown_number(lo)} to {shown_number(hi)}"
                                  for lo, hi in zip(rates["low"], rates["high"], strict=True)],
     })
     if "keyers" in rates:
@@ -514,7 +515,7 @@ def _sections(report: Report) -> list[tuple[str, list]]:
             "PLOT",
         ]),
         ("Errors double entry cannot see (an estimate)", [
-            f"About {_num(u.expected, 2)} of {u.fields:,} fields may be wrong in both passes "
+            f"About {shown_number(u.expected, 2)} of {u.fields:,} fields may be wrong in both passes "
             f"(N × p1 × p2 = {u.fields:,} × {u.p1:.5f} × {u.p2:.5f}). This is an estimate, "
             "not a count: it assumes the two passes err independently of each other and "
             "that every field is equally likely to be mistyped. Only fields where both "
@@ -555,10 +556,10 @@ def _screening_parts(report: Report) -> list:
     if report.screening is not None:
         table = report.screening.copy()
         for col in ("alpha", "split-half (Spearman-Brown)"):
-            table[col] = [_num(v, 3) for v in table[col]]
+            table[col] = [shown_number(v, 3) for v in table[col]]
         for col in ("items", "n", "from fewer items", "prorated", "too few answered"):
             if col in table:
-                table[col] = [_num(v, 0) for v in table[col]]
+                table[col] = [shown_number(v, 0) for v in table[col]]
         parts += [
             "Scale scores are computed by keyproof from the verified items (reverse-keyed "
             "items as min + max - x, declared missing codes left out), set-aside participants "
@@ -690,8 +691,8 @@ def rate_plot_svg(rates: pd.DataFrame, width: int = 560) -> str:
         parts.append(f'<line x1="{x(r["low"]):.1f}" y1="{y:.1f}" x2="{x(r["high"]):.1f}" '
                      f'y2="{y:.1f}" stroke="#333" stroke-width="2"/>')
         parts.append(f'<circle cx="{x(r["per_10000"]):.1f}" cy="{y:.1f}" r="4" fill="#333">'
-                     f'<title>{escape(str(r["keyer"]))}: {escape(_num(r["per_10000"]))} '
-                     f'({escape(_num(r["low"]))} to {escape(_num(r["high"]))})</title></circle>')
+                     f'<title>{escape(str(r["keyer"]))}: {escape(shown_number(r["per_10000"]))} '
+                     f'({escape(shown_number(r["low"]))} to {escape(shown_number(r["high"]))})</title></circle>')
     parts.append("</svg>")
     return "".join(parts)
 

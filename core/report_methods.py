@@ -21,10 +21,8 @@ import math
 
 import pandas as pd
 
-from .report import Report
-
-#: Kinds that are about a whole form rather than one field (as in core.compare).
-FORM_KINDS = ("only_in_pass1", "only_in_pass2", "duplicate_id")
+from .compare import FORM_KINDS
+from .report import Report, shown_number
 
 
 def methods_paragraph(report: Report) -> str:
@@ -107,7 +105,7 @@ def _comparison(report: Report, open_n: int) -> str:
             f"{report.fields_compared:,} fields): "
             f"{_n(fields, 'field was', 'fields were')} flagged because the passes disagreed "
             "or a value broke the codebook's rules")
-    text += f" ({_rate(rate)} per 10,000 fields)" if fields else ""
+    text += f" ({shown_number(rate)} per 10,000 fields)" if fields else ""
     if forms:
         text += (f", and {_n(forms, 'questionnaire', 'questionnaires')} because the "
                  "participant ID was found in one pass only or twice in one pass")
@@ -126,8 +124,8 @@ def _rates(report: Report) -> str:
     for _, r in rates.iterrows():
         errors = int(r["errors"])
         said.append(f"pass {int(r['pass'])} made {_n(errors, 'error', 'errors')} "
-                    f"({_rate(r['per_10000'])} per 10,000 fields; 95 % Wilson interval "
-                    f"{_rate(r['low'])} to {_rate(r['high'])})")
+                    f"({shown_number(r['per_10000'])} per 10,000 fields; 95 % Wilson interval "
+                    f"{shown_number(r['low'])} to {shown_number(r['high'])})")
     return "Judged against the paper, " + ", and ".join(said) + "."
 
 
@@ -167,10 +165,6 @@ def _scales(report: Report) -> str:
     if not said:
         return ""
     return "Cronbach's alpha of the scale scores: " + "; ".join(said) + "."
-
-
-def _rate(x) -> str:
-    return "—" if x is None or pd.isna(x) else f"{float(x):,.1f}"
 
 
 def _alpha(a: float) -> str:

@@ -477,10 +477,16 @@ def settle_shift(study, participant: str, pass_no: int, reason: str, keyer: str,
         raise DecisionError(
             f"participant {participant} has no open field shift — settle its cells one by one."
         )
+    return _take_pass_all(study, shift, pass_no, reason, keyer, keep=keep)
+
+
+def _take_pass_all(study, rows: pd.DataFrame, pass_no: int, reason: str, keyer: str,
+                   keep: bool = False) -> int:
+    """``take_pass`` on every row in one transaction: all or none; returns how many."""
     with study.transaction():
-        for _, row in shift.iterrows():
+        for _, row in rows.iterrows():
             take_pass(study, row, pass_no, reason, keyer, keep=keep)
-    return len(shift)
+    return len(rows)
 
 
 def spelling_rows(codebook: Codebook, rows: pd.DataFrame) -> pd.DataFrame:
@@ -512,10 +518,7 @@ def settle_spelling(study, pass_no: int, reason: str, keyer: str,
     if todo.empty:
         raise DecisionError("no open difference of case or spaces in free text — "
                             "nothing to settle at once.")
-    with study.transaction():
-        for _, row in todo.iterrows():
-            take_pass(study, row, pass_no, reason, keyer)
-    return len(todo)
+    return _take_pass_all(study, todo, pass_no, reason, keyer)
 
 
 def reopen(study, row, reason: str, keyer: str) -> int:

@@ -13,6 +13,7 @@ so a slip here can hide a warning but never invent one.
 
 from __future__ import annotations
 
+import functools
 import re
 import unicodedata
 
@@ -92,5 +93,10 @@ class QuickCheck:
         # Dates, other scripts: the rule itself decides (rare, so its cost is fine).
         from core.values import parse
 
-        wanted = {parse(self.var, code).canonical for code in self.var.missing_values}
-        return parse(self.var, text).canonical in wanted
+        return parse(self.var, text).canonical in self._parsed_missing
+
+    @functools.cached_property
+    def _parsed_missing(self) -> set[str]:
+        from core.values import parse
+
+        return {parse(self.var, code).canonical for code in self.var.missing_values}
