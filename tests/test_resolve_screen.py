@@ -312,6 +312,16 @@ def test_detail_text_shows_rule_breaker_and_shift():
     assert any(line.startswith("  q1") and not line.endswith("≠") for line in lines)
 
 
+def test_detail_marks_a_neighbour_text_cut_to_its_column():
+    row = pd.Series({"participant": "7", "variable": "q2", "kind": "mismatch",
+                     "pass1": "Could we have a seed swap?", "pass2": "could we have a seed swap?",
+                     "cause": "case_space", "_status": "open", "detail": ""})
+    around = pd.DataFrame({"variable": ["q2"], "pass1": [row["pass1"]], "pass2": [row["pass2"]],
+                           "here": [True]})
+    (line,) = [x for x in detail_text(CB, row, around).splitlines() if x.startswith("›")]
+    assert line == "› q2              Could we have … could we have … ≠"
+
+
 @sync
 async def test_form_keyed_twice_is_dropped_from_the_screen(tmp_path):
     path = tmp_path / "twice.sqlite"

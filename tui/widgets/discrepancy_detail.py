@@ -100,8 +100,14 @@ def detail_text(codebook, row, around: pd.DataFrame | None = None,
             p2 = "—" if r.pass2 is None else _shown(str(r.pass2))
             mark = "›" if r.here else " "
             differs = "≠" if p1 != p2 else " "
-            lines.append(f"{mark} {str(r.variable)[:15]:<16}{p1[:15]:<16}{p2[:15]:<15}{differs}")
+            lines.append(f"{mark} {_cell(str(r.variable)):<16}{_cell(p1):<16}{_cell(p2):<16}"
+                         f"{differs}")
     return "\n".join(lines)
+
+
+def _cell(text: str, width: int = 15) -> str:
+    """A neighbour table cell: a text too long for its column ends in "…", never cut silently."""
+    return text if len(text) <= width else text[: width - 1] + "…"
 
 
 class DiscrepancyDetail(Static):
