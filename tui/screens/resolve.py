@@ -467,6 +467,7 @@ class ResolveScreen(Screen):
             self.say("No open difference of case or spaces in free text — settle cells one by one.")
             return
         n = len(todo)
+        what = f"{n} free-text difference" + ("" if n == 1 else "s")
         choices = {"keep pass 1's spelling": 1, "keep pass 2's spelling": 2}
 
         def picked(item: str | None) -> None:
@@ -479,12 +480,12 @@ class ResolveScreen(Screen):
                 res.settle_spelling(self.study, pass_no, reason, self.keyer, rows=self.rows)
                 self._settled(positions, res.VALUE, "", "", reason)
 
-            self._ask_reason(f"{n} free-text difference(s) of case or spaces: pass {pass_no}'s "
-                             "text stands", f"take_pass({pass_no})", then)
+            self._ask_reason(f"{what} of case or spaces: pass {pass_no}'s text stands",
+                             f"take_pass({pass_no})", then)
 
         self.app.push_screen(ChoiceDialog(
-            f"{n} open free-text difference(s) of only case or spaces: whose spelling stands?",
-            list(choices)), picked)
+            f"{what}, open, of only case or spaces: whose spelling stands?", list(choices)),
+            picked)
 
     # ------------------------------------------------------------------ form level
 
