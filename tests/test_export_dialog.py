@@ -154,10 +154,10 @@ async def test_a_refused_export_shows_the_open_counts_and_writes_nothing(tmp_pat
             assert f"{kind} {n}" in problem
         assert "nothing was written" in problem
         assert dialog.result is None and not dialog.running
-        # A draft is one tick away: Tab, Tab, space, then Enter from the path.
+        # A draft is one tick away: Tab, Tab, space, then Enter right there (Enter
+        # on the box exports; it must not untick it).
         await pilot.press("tab", "tab", "space")
         assert dialog.query_one("#export-draft").value
-        dialog.query_one("#export-path").focus()
         await pilot.press("enter")
         await settle(app, pilot)
         assert dialog.result is not None and dialog.result.path.name == "verified.DRAFT.xlsx"

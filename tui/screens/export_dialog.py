@@ -60,7 +60,10 @@ class ExportDialog(ModalScreen[None]):
     """Target, optional identifying file, draft toggle; Enter exports, Esc closes."""
 
     DEFAULT_CSS = DIALOG_CSS.format(name="ExportDialog")
-    BINDINGS = [Binding("escape", "close", "close")]
+    # Enter exports from any field: on the draft box a checkbox's own Enter would
+    # untick what the keyer just ticked with space, and nothing would happen.
+    BINDINGS = [Binding("enter", "start", "export", priority=True),
+                Binding("escape", "close", "close")]
 
     @dataclass
     class Progress(Message):
@@ -111,8 +114,7 @@ class ExportDialog(ModalScreen[None]):
         self.query_one("#export-progress", ProgressBar).display = False
         self.query_one("#export-path", Input).focus()
 
-    def on_input_submitted(self, event: Input.Submitted) -> None:
-        event.stop()
+    def action_start(self) -> None:
         self.start()
 
     def start(self) -> None:
